@@ -1,0 +1,1 @@
+"""Declarative definitions shipped with the package (see models/README.md)."""
