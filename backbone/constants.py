@@ -158,7 +158,7 @@ BOND = {
     "C-O": Constant("C=O bond", 1.231e-10, "m", _ENGH),
     "CA-CB": Constant("CA-CB bond", 1.530e-10, "m", _ENGH),
     "C-HN": Constant("C'(i-1) to HN(i) distance", 2.04e-10, "m", "peptide-plane geometry from Engh & Huber 1991 bonds and angles (common practice)"),
-    "CA-HN": Constant("CA(i) to HN(i) distance", 2.06e-10, "m", "peptide-plane geometry from Engh & Huber 1991 bonds and angles (common practice)"),
+    "CA-HN": Constant("CA(i) to HN(i) distance", 2.15e-10, "m", "law of cosines on Engh & Huber 1991 N-CA 1.458 A, N-H 1.02 A, CA-N-H 119.15 deg"),
     "C-CA": Constant("C'(i) to CA(i) distance", 1.525e-10, "m", _ENGH),
 }
 
