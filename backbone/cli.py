@@ -1,0 +1,136 @@
+"""Command-line front end: parse, call one function, print. No physics here.
+
+Every user error ends as one line on stderr and exit status 2, never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from backbone.errors import BackboneError
+
+__all__ = ["main", "build_parser"]
+
+EXIT_USAGE = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors (the usage text is available with --help)."""
+
+    def error(self, message):  # noqa: D401 - argparse API
+        self.exit(EXIT_USAGE, f"{self.prog}: {message} (see --help)\n")
+
+
+def _read_text(path: str, what: str) -> str:
+    try:
+        return Path(path).read_text(encoding="utf-8")
+    except OSError as err:
+        raise BackboneError(f"{what} {path!r}: cannot read it ({err.strerror or err})") from err
+    except UnicodeDecodeError as err:
+        raise BackboneError(f"{what} {path!r}: not a UTF-8 text file") from err
+
+
+def _add_condition_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("sample and spectrometer")
+    src = g.add_mutually_exclusive_group()
+    src.add_argument("--tau-c", type=float, metavar="NS", help="rotational correlation time [ns] (0.1-500)")
+    src.add_argument("--sequence", metavar="FILE", help="protein sequence (plain one-letter or FASTA); tau_c is estimated from its mass")
+    src.add_argument("--mass", type=float, metavar="KDA", help="protein mass [kDa]; tau_c is estimated from it")
+    g.add_argument("--temperature", default="25", metavar="T", help="sample temperature, °C or with unit (25, 25C, 298.15K); default 25 °C")
+    g.add_argument("--solvent", default="H2O", choices=["H2O", "D2O"], help="solvent for the viscosity (default H2O)")
+    fld = g.add_mutually_exclusive_group()
+    fld.add_argument("--field", type=float, metavar="MHZ", help="1H Larmor frequency [MHz] (100-1500), default 600")
+    fld.add_argument("--b0", type=float, metavar="TESLA", help="field as B0 [T] instead of --field")
+    g.add_argument("--labeling", default="13c15n", metavar="ID", help="labeling scheme id or TOML file (see `backbone labelings`); default 13c15n")
+    g.add_argument("--deuteration", type=float, metavar="LEVEL", help="deuteration level 0-1 at non-exchangeable sites (perdeuterated schemes)")
+    g.add_argument("--s2", type=float, default=1.0, help="model-free order parameter S2 (default 1: rigid)")
+    g.add_argument("--tau-e", type=float, default=0.0, metavar="NS", help="model-free internal correlation time [ns] (default 0)")
+
+
+def _conditions_from_args(args):
+    from backbone.conditions import resolve_conditions
+    from backbone.constants import proton_mhz_from_b0
+    from backbone.units import temperature_to_kelvin
+
+    proton_mhz = 600.0 if args.field is None else args.field
+    if args.b0 is not None:
+        if not args.b0 > 0:
+            raise BackboneError(f"--b0 = {args.b0!r} T must be > 0")
+        proton_mhz = float(proton_mhz_from_b0(args.b0))
+    sequence = _read_text(args.sequence, "sequence file") if args.sequence else None
+    return resolve_conditions(
+        tau_c_ns=args.tau_c,
+        sequence=sequence,
+        mass_kda=args.mass,
+        proton_mhz=proton_mhz,
+        labeling=args.labeling,
+        deuteration=args.deuteration,
+        temperature_k=temperature_to_kelvin(args.temperature, where="--temperature"),
+        solvent=args.solvent,
+        s2=args.s2,
+        tau_e_ns=args.tau_e,
+        where=args.sequence or "",
+    )
+
+
+def _cmd_rates(args) -> int:
+    from backbone.conditions import compute_rates
+    from backbone.report import rates_document, rates_table
+
+    conditions = _conditions_from_args(args)
+    rates = compute_rates(conditions)
+    doc = rates_document(conditions, rates)
+    if args.json:
+        print(json.dumps(doc, indent=2))
+    else:
+        print(rates_table(doc))
+    return 0
+
+
+def _cmd_labelings(args) -> int:
+    from backbone.labeling import registered_schemes
+    from backbone.report import labelings_table
+
+    schemes = registered_schemes()
+    if args.json:
+        print(json.dumps({"labeling": [s.as_dict() for s in schemes.values()]}, indent=2))
+    else:
+        print(labelings_table(schemes.values()))
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="backbone", description="Plan protein backbone triple-resonance NMR experiments.")
+    from backbone import __version__
+
+    parser.add_argument("--version", action="version", version=f"backbone {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    p = sub.add_parser("rates", help="relaxation rates of every backbone nucleus and coherence")
+    _add_condition_options(p)
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_rates)
+
+    p = sub.add_parser("labelings", help="list the bundled labeling schemes")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_labelings)
+    return parser
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except BackboneError as err:
+        print(f"backbone: {err}", file=sys.stderr)
+        return EXIT_USAGE
+    except BrokenPipeError:  # e.g. `backbone rates | head`
+        return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
