@@ -81,9 +81,7 @@ def resolve_conditions(
     τc comes from ``tau_c_ns`` when given; otherwise from ``sequence`` (one-letter, parsed) or ``mass_kda``
     through Stokes–Einstein–Debye with a hydration shell at ``temperature_k`` in ``solvent``.
     """
-    from backbone.graph import parse_sequence, residue_mass_da
     from backbone.labeling import load_scheme
-    from backbone.relaxation.tumbling import tau_c_from_mass
 
     pre = f"{where}: " if where else ""
     FIELD_MHZ.check(proton_mhz, where=where)
@@ -93,6 +91,8 @@ def resolve_conditions(
 
     mass_da = None
     if sequence is not None:
+        from backbone.graph import parse_sequence, residue_mass_da
+
         mass_da = residue_mass_da(parse_sequence(sequence, where=where or "sequence"))
     elif mass_kda is not None:
         if not mass_kda > 0:
@@ -105,6 +105,8 @@ def resolve_conditions(
         tau_c = float(tau_c_ns) * 1e-9
         source = "given"
     elif mass_da is not None:
+        from backbone.relaxation.tumbling import tau_c_from_mass  # iapws: imported only when estimating
+
         tau_c = float(tau_c_from_mass(mass_da, temperature_k, solvent=solvent))
         source = f"estimated from {mass_da / 1e3:.1f} kDa at {temperature_k:.2f} K in {solvent} (Stokes-Einstein-Debye)"
         try:
