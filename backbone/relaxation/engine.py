@@ -25,35 +25,74 @@ What is modeled
 Nuclei whose site the scheme leaves at natural abundance or deuterated (e.g. 13C in the ``15n`` scheme, Hα in
 a perdeuterated protein) are absent from the result and listed in :attr:`RateSet.unlabeled` with their fraction.
 
-Coherences (:data:`COHERENCES`): each is documented there with the Redfield terms it includes.
+Coherences (:data:`COHERENCES`): each is documented there with the Redfield terms it includes. The β-proton
+coherences use the side-chain nucleus HB (:data:`backbone.relaxation.environment.SIDE_CHAIN_NUCLEI`), whose
+rates are in :attr:`RateSet.side_chain`, not :attr:`RateSet.nuclei`.
+
+The amide proton also gets ``R1_recovery``, an effective longitudinal recovery rate for recycle-delay planning
+from a documented proton-bath estimate (:class:`ProtonBath`), not a Redfield rate.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from types import MappingProxyType
 
 import numpy as np
 
-from backbone.constants import BOND, CSA, GAMMA, CSATensor, b0_from_proton_mhz, dipolar_constant, spin_factor
+from backbone.constants import (
+    BOND,
+    CSA,
+    GAMMA,
+    Constant,
+    CSATensor,
+    b0_from_proton_mhz,
+    dipolar_constant,
+    spin_factor,
+)
 from backbone.errors import BackboneError
 from backbone.labeling.scheme import SITE_ELEMENT
 from backbone.relaxation import terms as _t
-from backbone.relaxation.environment import NUCLEI, NUCLEUS_SITE, get_environment
+from backbone.relaxation.environment import NUCLEI, NUCLEUS_SITE, SIDE_CHAIN_NUCLEI, get_environment
 from backbone.relaxation.spectral import spectral_density
 from backbone.units import FIELD_MHZ, S2, TAU_C_NS, TAU_E_NS
 
-__all__ = ["RateSet", "relaxation_rates", "COHERENCES", "NUCLEUS_RATES"]
+__all__ = [
+    "RateSet",
+    "relaxation_rates",
+    "COHERENCES",
+    "NUCLEUS_RATES",
+    "ProtonBath",
+    "PROTON_INVENTORY",
+    "METHYL_PROTON_R1",
+    "WATER_EXCHANGE",
+    "HB_CSA",
+]
 
+#: Every nucleus the engine computes: the backbone nuclei reported in RateSet.nuclei, then the side-chain ones
+#: (HB) that only their coherences use.
+_ENGINE_NUCLEI = NUCLEI + SIDE_CHAIN_NUCLEI
 #: Isotope each nucleus is observed as.
-_ISOTOPE = MappingProxyType({"H": "1H", "N": "15N", "CA": "13C", "HA": "1H", "C": "13C", "CB": "13C"})
+_ISOTOPE = MappingProxyType(
+    {"H": "1H", "N": "15N", "CA": "13C", "HA": "1H", "C": "13C", "CB": "13C", "HB": "1H"}
+)
 #: The magnetic isotope a labeling site is enriched in, by element.
 _MAGNETIC = MappingProxyType({"H": "1H", "C": "13C", "N": "15N"})
+#: CSA of the β protons (not in backbone.constants.CSA): a small aliphatic 1H CSA, taken equal to Hα's.
+HB_CSA = CSATensor("1H beta", "small aliphatic 1H CSA, about 5 ppm as for HA (from memory)", delta=5e-6)
 #: CSA tensor of each nucleus (N and H may be replaced through arguments).
 _CSA = MappingProxyType(
-    {"H": CSA["H"], "N": CSA["N"], "CA": CSA["CA"], "HA": CSA["HA"], "C": CSA["C"], "CB": CSA["CB"]}
+    {
+        "H": CSA["H"],
+        "N": CSA["N"],
+        "CA": CSA["CA"],
+        "HA": CSA["HA"],
+        "C": CSA["C"],
+        "CB": CSA["CB"],
+        "HB": HB_CSA,
+    }
 )
 
 _NH_RANGE_M = (0.9e-10, 1.2e-10)
@@ -73,6 +112,9 @@ NUCLEUS_RATES = MappingProxyType(
         "eta_z": "(H, N) |longitudinal DD/CSA cross-correlation rate| of the N-H pair",
         "sigma": "(N) cross-relaxation rate with the 1H spins (amide pair and remote protons)",
         "NOE": "(N) steady-state {1H}-15N NOE, every proton saturated (dimensionless)",
+        "R1_recovery": "(H) effective longitudinal recovery rate of the amide proton for recycle-delay planning: "
+        "the rate of the spin-diffusion-coupled proton bath (methyl sinks, exchange with water; ProtonBath), "
+        "never below the amide's own non-selective R1",
     }
 )
 
@@ -95,7 +137,7 @@ COHERENCES = MappingProxyType(
         "other partners and CSA",
         "CAx": "in-phase CA: R2(CA) (HA, N, C', CB, HN, ... with their flips, CA CSA); HA coupled, not the "
         "1H-decoupled mean with 2CAxHAz, which in protonated samples adds about half of rho(HA) from its other "
-        "protons (not modeled)",
+        "protons (that is CAx_hdec)",
         "2CAxNz": "CA anti-phase to its bonded N: R2(CA) with the CA-N term lacking the N flip, plus R1(N) from "
         "its other partners (including HN) and CSA",
         "Cx": "in-phase C': R2(C) (C' CSA dominant at high field)",
@@ -108,6 +150,43 @@ COHERENCES = MappingProxyType(
         "Cz": "C' longitudinal: selective R1(C)",
         "N_trosy": "15N TROSY component: R2_trosy(N)",
         "H_trosy": "HN TROSY component: R2_trosy(H)",
+        # --- coherences of the triple-resonance walks -----------------------------------------------------
+        # Anti-phase rule (Peng & Wagner, J. Magn. Reson. 98, 308, 1992, from memory): R(2IxSz) is R2(I) with
+        # the I-S pair term lacking the S flip, plus the selective longitudinal rate of S from its other partners
+        # and CSA. Cross-relaxation of 2IxSz into other operators and DD/DD, DD/CSA cross-correlation of the I-S
+        # pair with other interactions are neglected, as for the rules above.
+        "2NxCz": "15N(i) anti-phase to C'(i-1) under 1H decoupling: Nx_hdec with the N-C' term lacking the C' "
+        "flip 6J(wC), plus the selective R1 of C' from its other partners (CA, HN(i+1), ...) and CSA",
+        "2NxCAz": "15N(i) anti-phase to CA(i) under 1H decoupling: Nx_hdec with the N-CA term (bonded N-CA "
+        "distance) lacking the CA flip, plus the selective R1 of CA from its other partners and CSA; the rate "
+        "anti-phase to the 2J partner CA(i-1) is taken the same (its pair term at 2.4 A is a few % of the "
+        "bonded one, its R1 that of a like CA)",
+        "2NxCz_trosy": "as 2NxCz with the 15N TROSY component N_trosy in place of Nx_hdec (no 1H decoupling)",
+        "2NxCAz_trosy": "as 2NxCAz with the 15N TROSY component N_trosy in place of Nx_hdec (no 1H decoupling)",
+        "HAx": "in-phase HA: R2(HA) (CA, HN, HB, side-chain H, ... with their flips; HA CSA)",
+        "2HAxCAz": "HA anti-phase to its CA: R2(HA) with the HA-CA term lacking the CA flip, plus the selective "
+        "R1 of CA from its other partners and CSA",
+        "2CAxHAz": "CA anti-phase to its HA: R2(CA) with the CA-HA term lacking the HA flip, plus rho(HA) from "
+        "its other partners (like-spin, J(0)-dominated at large tau_c) and CSA",
+        "HBx": "in-phase HB, one proton of the CH2 beta group: R2(HB) (its CB, the geminal HB, vicinal protons, "
+        "...; HB CSA HB_CSA)",
+        "2HBxCBz": "HB anti-phase to its CB: R2(HB) with the HB-CB term lacking the CB flip, plus the selective "
+        "R1 of CB from its other partners (the second HB among them) and CSA",
+        "2CBxHBz": "CB anti-phase to one of its two HB: R2(CB) with that CB-HB term lacking the HB flip (the "
+        "other HB stays an in-phase partner), plus rho of that HB from its other partners and CSA",
+        "2CAxCBz": "CA anti-phase to CB: R2(CA) with the like-spin CA-CB term lacking the CB flip, plus the "
+        "selective R1 of CB from its other partners and CSA",
+        "2CBxCAz": "CB anti-phase to CA: R2(CB) with the like-spin CB-CA term lacking the CA flip, plus the "
+        "selective R1 of CA from its other partners and CSA",
+        "2CxCAz": "C' anti-phase to its CA: R2(C) with the like-spin C'-CA term lacking the CA flip, plus the "
+        "selective R1 of CA from its other partners and CSA",
+        "CAx_hdec": "CA under 1H decoupling: with HA protonated the mean of CAx and 2CAxHAz (same rule as "
+        "Nx_hdec; common practice, Cavanagh et al. 2007, from memory); with HA deuterated CAx itself, whose "
+        "2H partners enter with their own gamma and spin (2H decoupling removes the scalar coupling; scalar "
+        "relaxation of the second kind through 2H is not modeled)",
+        "CBx_hdec": "CB under 1H decoupling: with HB protonated CBx + (n/2)(2CBxHBz - CBx), n the count of "
+        "bonded HB in the geometry (2, CH2): each attached proton spends half the time in- and half anti-phase, "
+        "so n = 1 is the Nx_hdec mean; with HB deuterated CBx itself (as for CAx_hdec)",
     }
 )
 
@@ -131,8 +210,136 @@ _COHERENCE_NUCLEI = MappingProxyType(
         "Cz": ("C",),
         "N_trosy": ("N", "H"),
         "H_trosy": ("H", "N"),
+        "2NxCz": ("N", "C", "H"),
+        "2NxCAz": ("N", "CA", "H"),
+        "2NxCz_trosy": ("N", "C", "H"),
+        "2NxCAz_trosy": ("N", "CA", "H"),
+        "HAx": ("HA",),
+        "2HAxCAz": ("HA", "CA"),
+        "2CAxHAz": ("CA", "HA"),
+        "HBx": ("HB",),
+        "2HBxCBz": ("HB", "CB"),
+        "2CBxHBz": ("CB", "HB"),
+        "2CAxCBz": ("CA", "CB"),
+        "2CBxCAz": ("CB", "CA"),
+        "2CxCAz": ("C", "CA"),
+        "CAx_hdec": ("CA",),
+        "CBx_hdec": ("CB",),
     }
 )
+
+
+# ---------------------------------------------------------------------------------------------------------
+# Proton bath of the amide-1H recovery rate
+# ---------------------------------------------------------------------------------------------------------
+
+_COMPOSITION = (
+    "average amino-acid composition of UniProtKB/Swiss-Prot (from memory; A 8.3, V 6.9, L 9.7, I 6.0, T 5.3, "
+    "M 2.4, G 7.1, P 4.7 %)"
+)
+#: Protons per residue of an average protein by labeling site, as (all, of which methyl protons), counted from
+#: the composition above: amide H on every residue but Pro; HA one (Gly two); HB two on CH2 groups, one on Ile,
+#: Thr, Val, three (a methyl) on Ala; HMETHYL_ILV Ile δ1, Leu δ1/δ2, Val γ1/γ2; HSIDE every other side-chain
+#: proton (exchangeable ones included), with the Ile γ2, Thr γ2 and Met ε methyls. 7.8 protons per residue.
+PROTON_INVENTORY = MappingProxyType(
+    {
+        "H": (0.953, 0.0),
+        "HA": (1.071, 0.0),
+        "HB": (1.759, 0.248),
+        "HMETHYL_ILV": (1.172, 1.172),
+        "HSIDE": (2.868, 0.412),
+    }
+)
+#: Default longitudinal rate of a methyl proton, the sink of the proton bath (fast methyl rotation).
+METHYL_PROTON_R1 = Constant(
+    "methyl-proton R1", 2.0, "s^-1", "about 1-3 s^-1 at 600-800 MHz in proteins (common practice, from memory)"
+)
+#: Default effective rate at which a typical amide proton exchanges magnetization with water.
+WATER_EXCHANGE = Constant(
+    "amide-water magnetization exchange",
+    0.3,
+    "s^-1",
+    "estimate, not from a source: protected amides exchange slowly, surface ones at 1-10 s^-1, plus "
+    "exchange-relayed NOEs with hydroxyl and bound-water protons; water held at equilibrium (flip-back)",
+)
+_BATH_MAX_RATE = 100.0  # s^-1; above this the value is surely not a proton R1 or an exchange rate in s^-1
+
+
+@dataclass(frozen=True)
+class ProtonBath:
+    """Parameters of the proton bath that sets the amide-1H recovery rate ``R1_recovery`` [s⁻¹].
+
+    Model (a documented estimate, not a published formula): in a slowly tumbling protein, 1H–1H spin diffusion
+    is fast against longitudinal relaxation and couples the protons into one reservoir, which recovers at the
+    population-weighted mean of the rates of its members (fast-spin-diffusion limit; the idea of relaxation
+    sinks goes back to Kalk & Berendsen, J. Magn. Reson. 24, 343, 1976, from memory). Methyl protons relax
+    fast (``methyl_r1``); every other proton is represented by the amide's own non-selective rate R1_ns. The
+    amide also exchanges magnetization with water held at equilibrium (``water_exchange``). So
+
+        R1_recovery = max(R1_ns, x·methyl_r1 + (1 − x)·R1_ns) + water_exchange,
+
+    with x the methyl fraction of the protein's protons under the labeling scheme, from
+    :data:`PROTON_INVENTORY` and the 1H fraction of each site, unless ``methyl_fraction`` gives it. The fast-
+    diffusion limit overstates the methyl sink where the protons are dilute (deuterated samples, where the
+    amide–methyl coupling is slower) and at small τc, where spin diffusion is slow and each proton relaxes at its
+    own rate (then R1_ns dominates anyway). Water saturation, radiation damping and paramagnetic relaxation are
+    not modeled.
+
+    Attributes
+    ----------
+    methyl_r1 : float [s⁻¹], default :data:`METHYL_PROTON_R1` (2 s⁻¹)
+    water_exchange : float [s⁻¹], default :data:`WATER_EXCHANGE` (0.3 s⁻¹)
+    methyl_fraction : float in [0, 1] or None (default: from the labeling scheme)
+    """
+
+    methyl_r1: float = METHYL_PROTON_R1.value
+    water_exchange: float = WATER_EXCHANGE.value
+    methyl_fraction: float | None = None
+
+    def __post_init__(self):
+        for name in ("methyl_r1", "water_exchange"):
+            value = getattr(self, name)
+            try:
+                v = float(value)
+            except (TypeError, ValueError) as err:
+                raise BackboneError(f"proton_bath.{name}: expected a rate in s^-1, got {value!r}") from err
+            if not (math.isfinite(v) and 0.0 <= v <= _BATH_MAX_RATE):
+                raise BackboneError(f"proton_bath.{name} = {value!r} is outside [0, {_BATH_MAX_RATE:g}] s^-1")
+            object.__setattr__(self, name, v)
+        if self.methyl_fraction is not None:
+            try:
+                x = float(self.methyl_fraction)
+            except (TypeError, ValueError) as err:
+                raise BackboneError(
+                    f"proton_bath.methyl_fraction: expected a fraction in [0, 1] or None, got {self.methyl_fraction!r}"
+                ) from err
+            if not (math.isfinite(x) and 0.0 <= x <= 1.0):
+                raise BackboneError(f"proton_bath.methyl_fraction = {self.methyl_fraction!r} is outside [0, 1]")
+            object.__setattr__(self, "methyl_fraction", x)
+
+
+def _as_bath(value) -> ProtonBath:
+    if value is None:
+        return ProtonBath()
+    if isinstance(value, ProtonBath):
+        return value
+    if isinstance(value, Mapping):
+        allowed = ("methyl_r1", "water_exchange", "methyl_fraction")
+        unknown = [k for k in value if k not in allowed]
+        if unknown:
+            raise BackboneError(f"proton_bath: unknown key {unknown[0]!r}; allowed are {', '.join(allowed)}")
+        return ProtonBath(**value)
+    raise BackboneError(f"proton_bath: expected a ProtonBath or a mapping, got {type(value).__name__}")
+
+
+def _methyl_fraction(labeling) -> float:
+    """Fraction of the protein's protons that are methyl protons, 1H fractions of the scheme applied."""
+    total = methyl = 0.0
+    for site, (n_all, n_methyl) in PROTON_INVENTORY.items():
+        f = _fraction(labeling, site)
+        total += f * n_all
+        methyl += f * n_methyl
+    return methyl / total if total > 0.0 else 0.0
 
 
 # ---------------------------------------------------------------------------------------------------------
@@ -161,6 +368,10 @@ class RateSet:
         The coherence rates of :data:`COHERENCES` whose nuclei are all labeled.
     unlabeled : mapping nucleus → float
         Nuclei left out because their site is not in the magnetic isotope, with the site's magnetic fraction.
+    side_chain : mapping nucleus → mapping rate name → array
+        The labeled side-chain nuclei the coherences need (``"HB"``, :data:`~backbone.relaxation.environment.
+        SIDE_CHAIN_NUCLEI`) with ``R1`` (non-selective), ``R1_selective``, ``R1_nonselective``, ``R2``; kept out of
+        :attr:`nuclei` (and of :meth:`as_dict`), which hold the backbone nuclei.
     """
 
     tau_c: np.ndarray
@@ -171,6 +382,7 @@ class RateSet:
     nuclei: Mapping[str, Mapping[str, np.ndarray]]
     coherences: Mapping[str, np.ndarray]
     unlabeled: Mapping[str, float]
+    side_chain: Mapping[str, Mapping[str, np.ndarray]] = field(default_factory=lambda: MappingProxyType({}))
 
     @property
     def shape(self) -> tuple[int, ...]:
@@ -198,7 +410,7 @@ class RateSet:
             return self.coherences[name]
         except KeyError as err:
             if name in COHERENCES:
-                missing = [n for n in _COHERENCE_NUCLEI[name] if n not in self.nuclei]
+                missing = [n for n in _COHERENCE_NUCLEI[name] if n not in self.nuclei and n not in self.side_chain]
                 raise BackboneError(
                     f"coherence {name!r} needs {', '.join(missing)}, unlabeled in scheme {self.labeling!r}"
                 ) from err
@@ -348,8 +560,8 @@ def _check_rex(rex, shape) -> dict[str, np.ndarray]:
         raise BackboneError(f"rex: expected a mapping nucleus -> exchange rate [s^-1], got {type(rex).__name__}")
     out = {}
     for nucleus, value in rex.items():
-        if nucleus not in NUCLEI:
-            raise BackboneError(f"rex: unknown nucleus {nucleus!r}; allowed are {', '.join(NUCLEI)}")
+        if nucleus not in _ENGINE_NUCLEI:
+            raise BackboneError(f"rex: unknown nucleus {nucleus!r}; allowed are {', '.join(_ENGINE_NUCLEI)}")
         try:
             arr = np.asarray(value, dtype=float)
             np.broadcast_to(arr, shape)
@@ -384,6 +596,7 @@ def relaxation_rates(
     nh_distance=BOND["N-H"].value,
     n_csa=CSA["N"],
     h_csa=CSA["H"],
+    proton_bath=None,
 ) -> RateSet:
     """Relaxation rates of the backbone nuclei and coherences at every (τc, field) point.
 
@@ -411,6 +624,9 @@ def relaxation_rates(
         15N and 1HN chemical-shift tensors (Δσ_eff and the angle of the unique axis to N–H); a float is Δσ in
         parts of one with the default angle. Defaults :data:`backbone.constants.CSA` ``"N"`` (−160 ppm, 17°) and
         ``"H"`` (15 ppm, 10°).
+    proton_bath : ProtonBath or mapping, optional
+        Parameters of the amide-1H recovery rate ``R1_recovery`` (:class:`ProtonBath`: ``methyl_r1`` [s⁻¹],
+        default 2; ``water_exchange`` [s⁻¹], default 0.3; ``methyl_fraction``, default from the labeling scheme).
 
     All array arguments broadcast (numpy rules) to one grid; every rate has that shape.
 
@@ -451,6 +667,7 @@ def relaxation_rates(
     csa["N"] = _csa_parameters(n_csa, "n_csa", _CSA["N"])
     csa["H"] = _csa_parameters(h_csa, "h_csa", _CSA["H"])
     env = get_environment(environment)
+    bath = _as_bath(proton_bath)
 
     try:
         grid = np.broadcast(*(np.asarray(x, dtype=float) for x in (tau_c, proton_mhz, s2, tau_e)))
@@ -464,7 +681,7 @@ def relaxation_rates(
     )
     rex_a = _check_rex(rex, shape)
 
-    present = {n: _is_present(labeling, n) for n in NUCLEI}
+    present = {n: _is_present(labeling, n) for n in _ENGINE_NUCLEI}
     unlabeled = {n: _fraction(labeling, NUCLEUS_SITE[n]) for n in NUCLEI if not present[n]}
 
     b0 = b0_from_proton_mhz(mhz_a)
@@ -478,7 +695,7 @@ def relaxation_rates(
     nh_r6 = nh**-6
 
     auto: dict[str, dict[str, np.ndarray]] = {}
-    for nucleus in NUCLEI:
+    for nucleus in _ENGINE_NUCLEI:
         if not present[nucleus]:
             continue
         iso = _ISOTOPE[nucleus]
@@ -546,13 +763,32 @@ def relaxation_rates(
             + rex_of(i)
         )
 
+    def anti_phase_from(base: np.ndarray, i: str, s: str) -> np.ndarray:
+        """``base`` (a rate of I that contains the weighted in-phase I–S term) made anti-phase to S."""
+        p = bonded_pair(i, s)
+        return base - p["r2_pair_weighted"] + p["r2_anti_pair"] + auto[s]["r1_sel"] - p["r1_s_pair_weighted"]
+
+    def decoupled(i: str, h: str, in_phase: np.ndarray) -> np.ndarray:
+        """I under decoupling of its bonded protons h: each spends half the time in- and half anti-phase."""
+        if not present[h]:
+            return in_phase  # h is 2H: its terms are in R2(I) already
+        p_ih = nearest(i, NUCLEUS_SITE[h])
+        n = p_ih.count if p_ih is not None else 0.0
+        return in_phase + 0.5 * n * (anti_phase(i, h) - in_phase)
+
     nuclei_out: dict[str, dict[str, np.ndarray]] = {}
+    side_out: dict[str, dict[str, np.ndarray]] = {}
     for nucleus, a in auto.items():
         rates = {"R1": a["r1_ns"] if _ISOTOPE[nucleus] == "1H" else a["r1_sel"], "R2": a["r2"] + rex_of(nucleus)}
         if _ISOTOPE[nucleus] == "1H":
             rates["R1_selective"] = a["r1_sel"]
             rates["R1_nonselective"] = a["r1_ns"]
-        nuclei_out[nucleus] = rates
+        (nuclei_out if nucleus in NUCLEI else side_out)[nucleus] = rates
+    if present["H"]:
+        x = _methyl_fraction(labeling) if bath.methyl_fraction is None else bath.methyl_fraction
+        r1_ns = auto["H"]["r1_ns"]
+        pooled = x * bath.methyl_r1 + (1.0 - x) * r1_ns
+        nuclei_out["H"]["R1_recovery"] = np.maximum(r1_ns, pooled) + bath.water_exchange
 
     coh: dict[str, np.ndarray] = {}
     if present["N"]:
@@ -604,6 +840,30 @@ def relaxation_rates(
             coh["2CxNz"] = anti_phase("C", "N")
     if present["CB"]:
         coh["CBx"] = nuclei_out["CB"]["R2"]
+    # Coherences of the triple-resonance walks (COHERENCES).
+    for name, (i, s) in {"2NxCz": ("N", "C"), "2NxCAz": ("N", "CA")}.items():
+        if present[s] and "Nx_hdec" in coh:
+            coh[name] = anti_phase_from(coh["Nx_hdec"], i, s)
+            coh[name + "_trosy"] = anti_phase_from(coh["N_trosy"], i, s)
+    if present["HA"]:
+        coh["HAx"] = nuclei_out["HA"]["R2"]
+    if present["HB"]:
+        coh["HBx"] = side_out["HB"]["R2"]
+    for name, (i, s) in {
+        "2HAxCAz": ("HA", "CA"),
+        "2CAxHAz": ("CA", "HA"),
+        "2HBxCBz": ("HB", "CB"),
+        "2CBxHBz": ("CB", "HB"),
+        "2CAxCBz": ("CA", "CB"),
+        "2CBxCAz": ("CB", "CA"),
+        "2CxCAz": ("C", "CA"),
+    }.items():
+        if present[i] and present[s]:
+            coh[name] = anti_phase(i, s)
+    if present["CA"]:
+        coh["CAx_hdec"] = decoupled("CA", "HA", coh["CAx"])
+    if present["CB"]:
+        coh["CBx_hdec"] = decoupled("CB", "HB", coh["CBx"])
 
     def freeze(d):
         return MappingProxyType({k: _readonly(np.broadcast_to(v, shape)) for k, v in d.items()})
@@ -618,4 +878,5 @@ def relaxation_rates(
         nuclei=MappingProxyType({n: freeze(r) for n, r in nuclei_out.items()}),
         coherences=freeze(ordered_coh),
         unlabeled=MappingProxyType(unlabeled),
+        side_chain=MappingProxyType({n: freeze(r) for n, r in side_out.items()}),
     )

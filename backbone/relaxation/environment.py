@@ -39,6 +39,13 @@ Where the numbers come from
   2 at 3.0 Å of each HA (own γ protons), 2 at 2.15 Å of each CB (geminal-like γ protons), and, for the methyls,
   one methyl (3 protons) at 4.5 Å for half of the amides (count 1.5), the typical distance of a methyl in contact
   with an amide in a packed core.
+- The β proton ``"HB"`` (:data:`SIDE_CHAIN_NUCLEI`, used by the HB coherences only) is one proton of a CH2
+  group, the most common β group, described per proton: its CB at the C–H bond, the geminal HB at the two-bond
+  H–C–H distance (tetrahedral, 1.78 Å), CA and CG two bonds away, and the χ1-averaged HA, HN, N and C′ distances
+  of the rows above read from the other side (each of those rows lists the two β protons, count 2, at one
+  effective distance). The two vicinal γ protons at an effective 2.6 Å (between the gauche, about 2.5 Å, and
+  anti, about 3.05 Å, H–C–C–H distances; an estimate, not from a source). Residues with a CH β group (Ile, Thr,
+  Val) or a methyl (Ala) are not described separately.
 
 Left out: 14N (quadrupolar, self-decoupled; only the 15N isotopomers are modeled), 17O, partners whose
 contribution is below about 1 % of the dominant term of the nucleus, scalar relaxation of the second kind through
@@ -46,7 +53,8 @@ contribution is below about 1 % of the dominant term of the nucleus, scalar rela
 protons are treated as static at their effective distance). One S², τe applies to every vector (the engine's
 ``s2``, ``tau_e``).
 
-A user geometry (same shape, every nucleus present; an empty tuple means no partners) is checked by
+A user geometry (same shape, every nucleus of :data:`NUCLEI` present, ``"HB"`` optional; an empty tuple means no
+partners) is checked by
 :func:`validate_environment`.
 """
 
@@ -63,6 +71,7 @@ from backbone.labeling.scheme import SITES
 
 __all__ = [
     "NUCLEI",
+    "SIDE_CHAIN_NUCLEI",
     "NUCLEUS_SITE",
     "ANGLES",
     "Partner",
@@ -74,8 +83,12 @@ __all__ = [
 
 #: Nuclei the relaxation engine computes, by PDB atom name ("C" is the carbonyl C′).
 NUCLEI = ("H", "N", "CA", "HA", "C", "CB")
-#: Labeling site of each nucleus.
-NUCLEUS_SITE = MappingProxyType({"H": "H", "N": "N", "CA": "CA", "HA": "HA", "C": "C", "CB": "CB"})
+#: Side-chain nuclei whose geometry is also given, for the coherences that need them (the β protons). They are
+#: not among :data:`NUCLEI`: the engine reports their coherences, not their rates as a nucleus.
+SIDE_CHAIN_NUCLEI = ("HB",)
+#: Labeling site of each nucleus (of :data:`NUCLEI` and :data:`SIDE_CHAIN_NUCLEI`).
+NUCLEUS_SITE = MappingProxyType({"H": "H", "N": "N", "CA": "CA", "HA": "HA", "C": "C", "CB": "CB", "HB": "HB"})
+_ALL_NUCLEI = NUCLEI + SIDE_CHAIN_NUCLEI
 
 _ENGH_ANGLES = "Engh & Huber, Acta Cryst. A47, 392-400 (1991), Table 3 (from memory)"
 #: Bond angles [deg] used to compute two-bond distances.
@@ -131,6 +144,7 @@ _R_CA_CB_HB = _two_bond("CA-CB", "CB-HB", "tetrahedral")
 _R_N_CA_C = _two_bond("N-CA", "CA-C", "N-CA-C")
 _R_N_CA_CB = _two_bond("N-CA", "CA-CB", "N-CA-CB")
 _R_N_CA_HA = _two_bond("N-CA", "CA-HA", "tetrahedral")
+_R_HB_CB_HB = _two_bond("CB-HB", "CB-HB", "tetrahedral")
 
 # Each row: (nucleus, label, site, helix distance [m] or None, sheet distance [m] or None, count).
 # "computed" = from the model chain described in the module docstring; "W86" = Wüthrich 1986 (from memory).
@@ -209,11 +223,22 @@ _TABLE = (
     ("CB", "C'(i)", "C", _R_C_CA_CB, _R_C_CA_CB, 1.0),
     ("CB", "HN(i)", "H", 2.5 * _A, 2.9 * _A, 1.0),  # computed
     ("CB", "HN(i+1)", "H", 2.9 * _A, 3.4 * _A, 1.0),  # computed
+    # --- one beta proton HB(i) of a CH2 group (per proton; the reverse of the HB rows above) ---------------
+    ("HB", "CB(i)", "CB", BOND["CB-HB"].value, BOND["CB-HB"].value, 1.0),
+    ("HB", "geminal HB(i)", "HB", _R_HB_CB_HB, _R_HB_CB_HB, 1.0),
+    ("HB", "CA(i)", "CA", _R_CA_CB_HB, _R_CA_CB_HB, 1.0),
+    ("HB", "CG(i)", "CG", _R_CA_CB_HB, _R_CA_CB_HB, 1.0),  # CB-CG as long as CA-CB
+    ("HB", "HA(i)", "HA", 2.6 * _A, 2.6 * _A, 1.0),  # computed, chi1-averaged (the HA row HB(i), per proton)
+    ("HB", "HN(i)", "H", 2.7 * _A, 3.1 * _A, 1.0),  # computed, chi1-averaged (the H row HB(i), per proton)
+    ("HB", "HN(i+1)", "H", 2.8 * _A, 3.6 * _A, 1.0),  # computed, chi1-averaged (the H row HB(i-1), per proton)
+    ("HB", "N(i)", "N", 2.8 * _A, 2.8 * _A, 1.0),  # computed, chi1-averaged (the N row HB(i), per proton)
+    ("HB", "C'(i)", "C", 2.85 * _A, 2.85 * _A, 1.0),  # computed, chi1-averaged (the C row HB(i), per proton)
+    ("HB", "side-chain H", "HSIDE", 2.6 * _A, 2.6 * _A, 2.0),  # estimate: vicinal gamma protons
 )
 
 
 def _geometry(column: int) -> Mapping[str, tuple[Partner, ...]]:
-    out: dict[str, list[Partner]] = {n: [] for n in NUCLEI}
+    out: dict[str, list[Partner]] = {n: [] for n in _ALL_NUCLEI}
     for nucleus, label, site, *distances, count in _TABLE:
         r = distances[column]
         if r is not None:
@@ -224,7 +249,7 @@ def _geometry(column: int) -> Mapping[str, tuple[Partner, ...]]:
 def _blend(weights: Mapping[str, float]) -> Mapping[str, tuple[Partner, ...]]:
     """Geometry whose count·r⁻⁶ of every row is the weighted mean over the named structures."""
     column = {"helix": 0, "sheet": 1}
-    out: dict[str, list[Partner]] = {n: [] for n in NUCLEI}
+    out: dict[str, list[Partner]] = {n: [] for n in _ALL_NUCLEI}
     for nucleus, label, site, *distances, count in _TABLE:
         s = sum(w * distances[column[name]] ** -6 for name, w in weights.items() if distances[column[name]])
         out[nucleus].append(Partner(site, float(s ** (-1.0 / 6.0)), float(count), label))
@@ -282,7 +307,9 @@ def validate_environment(environment, *, where: str = "environment") -> Mapping[
     """Check a geometry and return it as a read-only mapping nucleus → tuple of :class:`Partner`.
 
     ``environment`` is a bundled name (``"typical"``, ``"helix"``, ``"sheet"``) or a mapping with an entry for
-    every nucleus of :data:`NUCLEI`, each an iterable of partners given as :class:`Partner`, as tuples
+    every nucleus of :data:`NUCLEI` and optionally of :data:`SIDE_CHAIN_NUCLEI` (``"HB"``; when it is left out
+    the β proton keeps the partners of the bundled ``"typical"`` geometry, so geometries written for the six
+    backbone nuclei keep working), each an iterable of partners given as :class:`Partner`, as tuples
     ``(site, distance_m[, count[, label]])`` or as mappings with those keys. Sites are labeling sites
     (:data:`backbone.labeling.SITES`), distances in metres within [0.9, 10] Å, counts in [0, 1000]. The amide
     N–H pair must not be listed (it is the engine's ``nh_distance``). Raises
@@ -299,11 +326,14 @@ def validate_environment(environment, *, where: str = "environment") -> Mapping[
         raise BackboneError(
             f"{where}: expected a geometry name or a mapping nucleus -> partners, got {type(environment).__name__}"
         )
-    unknown = [k for k in environment if k not in NUCLEI]
+    unknown = [k for k in environment if k not in _ALL_NUCLEI]
     if unknown:
-        raise BackboneError(f"{where}: unknown nucleus {unknown[0]!r}; allowed are {', '.join(NUCLEI)}")
+        raise BackboneError(f"{where}: unknown nucleus {unknown[0]!r}; allowed are {', '.join(_ALL_NUCLEI)}")
     out = {}
-    for nucleus in NUCLEI:
+    for nucleus in _ALL_NUCLEI:
+        if nucleus in SIDE_CHAIN_NUCLEI and nucleus not in environment:
+            out[nucleus] = DEFAULT_ENVIRONMENT[nucleus]
+            continue
         if nucleus not in environment:
             raise BackboneError(
                 f"{where}: missing entry for nucleus {nucleus!r} (give all of {', '.join(NUCLEI)}; "
