@@ -22,9 +22,7 @@ temperature, which is stored in kelvin (``temperature_k``) whichever of ``temper
 from __future__ import annotations
 
 import dataclasses
-import difflib
 import math
-import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,6 +30,7 @@ from types import MappingProxyType
 
 from backbone.constants import Constant
 from backbone.errors import BackboneError
+from backbone.tomlfile import closest, read_toml
 from backbone.graph import parse_sequence, residue_mass_da
 from backbone.units import (
     FIELD_MHZ,
@@ -203,18 +202,11 @@ def _choice(value, key: str, allowed: Sequence[str], source: str) -> str:
         for option in allowed:
             if value.strip().lower() == option.lower():
                 return option
-        close = _closest(value.strip(), allowed)
+        close = closest(value.strip(), allowed)
         hint = f" (did you mean {close!r}?)" if close else ""
     raise BackboneError(
         f"{_prefix(source)}{key} = {value!r} is not allowed{hint}; allowed values: {', '.join(map(repr, allowed))}"
     )
-
-
-def _closest(word: str, options: Sequence[str]) -> str | None:
-    """The option closest to ``word`` (case-insensitive difflib match), or None."""
-    lowered = {o.lower(): o for o in options}
-    match = difflib.get_close_matches(word.lower(), list(lowered), n=1, cutoff=0.6)
-    return lowered[match[0]] if match else None
 
 
 def _registered_schemes():
@@ -257,7 +249,7 @@ class LabelingChoice:
         if known is not None:
             by_lower = {sid.lower(): sid for sid in known}
             if scheme.lower() not in by_lower:
-                close = _closest(scheme, list(known))
+                close = closest(scheme, list(known))
                 hint = f" (did you mean {close!r}?)" if close else ""
                 raise BackboneError(
                     f"{pre}{self.key} = {scheme!r} is not a registered labeling scheme{hint}; "
@@ -766,7 +758,7 @@ def _unknown_key(key: str, table: str, allowed: Sequence[str], where: str, label
     """The error for ``key`` not in ``allowed``: names file, table and key, and suggests the closest valid key."""
     label = _table_label(table) if label is None else f"in {label}"
     homes = _homes_of(key, table)
-    close = _closest(key, allowed)
+    close = closest(key, allowed)
     if homes:
         hint = f" (it belongs in {' or '.join(f'[{h}]' for h in homes)})"
     elif close is not None:
@@ -902,16 +894,7 @@ def load_scenario(path: str | Path) -> Scenario:
     """
     path = Path(path)
     where = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as err:
-        raise BackboneError(f"{where}: cannot read scenario file ({err.strerror or err})") from err
-    except UnicodeDecodeError as err:
-        raise BackboneError(f"{where}: scenario file is not UTF-8 text") from err
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise BackboneError(f"{where}: not valid TOML: {err}") from err
+    data = read_toml(path, "scenario file")
 
     for key in data:
         if key not in _KEYS[""]:

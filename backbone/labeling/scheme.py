@@ -25,7 +25,6 @@ import dataclasses
 import functools
 import math
 import re
-import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -33,6 +32,7 @@ from types import MappingProxyType
 
 from backbone.constants import NATURAL_ABUNDANCE
 from backbone.errors import BackboneError
+from backbone.tomlfile import read_toml
 from backbone.resources import models_dir
 
 __all__ = [
@@ -441,18 +441,7 @@ def _scheme_from_data(data: Mapping, where: str) -> LabelingScheme:
 
 
 def _read_file(path: Path) -> LabelingScheme:
-    where = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as err:
-        raise BackboneError(f"{where}: cannot read labeling scheme file ({err.strerror or err})") from err
-    except UnicodeDecodeError as err:
-        raise BackboneError(f"{where}: labeling scheme file is not UTF-8 text") from err
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise BackboneError(f"{where}: not valid TOML: {err}") from err
-    return _scheme_from_data(data, where)
+    return _scheme_from_data(read_toml(path, "labeling scheme file"), str(path))
 
 
 def _bundled_paths() -> dict[str, Path]:
