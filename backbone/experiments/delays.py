@@ -1,0 +1,303 @@
+"""Textbook and optimal delays of an experiment model, under an objective over its peaks.
+
+Objectives
+----------
+An objective turns the peaks' pathway amplitudes (sign removed, so the expected sign counts as positive and a
+sign flip as a loss) into one number to maximize:
+
+* a peak label, e.g. ``"CA(i)"``: that peak;
+* ``"weakest"``: the smallest of the feasible peaks — what limits a sequential walk that needs them all;
+* ``"geometric-mean"``: (∏ max(a_k, 0))^(1/n) over the feasible peaks, a balance that does not sacrifice
+  any one peak entirely.
+
+Each model file names its default and why (``objective``, ``objective_reason``). If the named peak is absent
+for a residue (Gly has no CB), the weakest of the present peaks is used and the reported objective says so.
+
+How the delays are found
+------------------------
+A peak's amplitude is a product of one factor per named delay (the steps using it, with the evolutions
+``within`` them) and fixed factors. So a named-peak or geometric-mean objective separates: every delay is
+optimized alone. Under ``"weakest"`` a delay whose factor is the same for every peak (same steps, couplings and
+coherences on every pathway, e.g. the H→N INEPT delay shared with the N→H refocus) multiplies all peaks alike
+and is optimized alone; the delays that treat peaks differently (branches: HNCA's N→CA period, HNCACB's
+N→CA and CA→CB periods together) are optimized jointly on min_k(fixed_k × ∏_d f_k,d(τ_d)).
+
+One delay with one active coupling in every step that uses it, the same pair of rates, no passive coupling and
+no evolution inside it has the closed form of :func:`~backbone.transfer.optimal_transfer_delay` (equal rates:
+:func:`~backbone.transfer.optimal_inept_delay`, arctan(πJ/R)/(πJ)); the others use the vectorized optimizers
+:func:`~backbone.transfer.optimal_delay` and :func:`~backbone.transfer.optimal_delays`. The search runs over
+(0, τ_max], τ_max the first sign change of any coupling factor using the delay (sin(πJτ) of a pathway's own
+coupling at 1/J, cos(πJτ) of other partners and passive couplings at 1/(2J)): the first lobe, which is what a
+sequence is set to (later lobes can be as high without relaxation but are never used).
+
+Textbook delays are the same optimum with every rate zero (:func:`textbook_delays`): 1/(2J) for an INEPT,
+33.3 ms for N→C′ with 15 Hz, 31.4 ms for the own peak of N→CA with 11/7 Hz. Everything is vectorized over the
+condition grid of the rates (a loop over delays and steps, none over grid points).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from types import MappingProxyType
+
+import numpy as np
+
+from backbone.errors import BackboneError
+from backbone.experiments.model import OBJECTIVES
+from backbone.experiments.walk import NoRelaxation, ResolvedWalk, _mode, _rate, segment_amplitude
+from backbone.transfer import optimal_delay, optimal_delays, optimal_inept_delay, optimal_transfer_delay
+
+__all__ = ["DelayChoice", "objective_value", "check_objective", "delay_bounds", "optimize_delays", "textbook_delays"]
+
+_MAX_JOINT = 4
+
+
+@dataclass(frozen=True)
+class DelayChoice:
+    """Chosen delays: ``delays`` name → array [s] (condition shape), the ``objective`` used, and per delay how
+    it was found (``methods``: "closed form", "alone", "joint with …")."""
+
+    delays: Mapping
+    objective: str
+    methods: Mapping
+
+
+def objective_value(amplitudes: Mapping, objective: str) -> np.ndarray:
+    """Value of ``objective`` over ``amplitudes`` (label → unsigned pathway amplitude array, feasible peaks)."""
+    if not amplitudes:
+        raise BackboneError("objective: no feasible peak to evaluate")
+    if objective == "weakest":
+        vals = list(amplitudes.values())
+        out = vals[0]
+        for v in vals[1:]:
+            out = np.minimum(out, v)
+        return np.asarray(out)
+    if objective == "geometric-mean":
+        vals = [np.maximum(np.asarray(v), 0.0) for v in amplitudes.values()]
+        out = 1.0
+        for v in vals:
+            out = out * v
+        return np.asarray(out) ** (1.0 / len(vals))
+    try:
+        return np.asarray(amplitudes[objective])
+    except KeyError as err:
+        raise BackboneError(
+            f"objective {objective!r}: not a feasible peak; peaks are {', '.join(amplitudes)}, or use "
+            f"{' / '.join(OBJECTIVES)}"
+        ) from err
+
+
+def check_objective(resolved: ResolvedWalk, objective: str | None) -> str:
+    """The objective in effect: the model default if None; an absent named peak falls back to 'weakest'."""
+    model = resolved.model
+    obj = model.objective if objective is None else objective
+    labels = [p.label for p in model.peaks]
+    if obj not in OBJECTIVES and obj not in labels:
+        allowed = list(OBJECTIVES) + labels
+        raise BackboneError(f"{model.name}: objective {obj!r} is not allowed; allowed are {', '.join(allowed)}")
+    if obj in labels and not resolved.peak(obj).feasible:
+        return "weakest"
+    return obj
+
+
+def _first_zero(rs) -> float | None:
+    """End [s] of the first interval on which every coupling factor of a segment keeps its sign, or None.
+
+    The pathway's own active coupling J_k gives sin(πJ_kτ), positive up to 1/J_k; the other active partners and
+    the passive couplings give cos(πJτ), positive up to 1/(2J); a split's staying pathway cos(πJτ) likewise.
+    """
+    if not rs.j_active or rs.step.delay != rs.delay:
+        return None
+    ends = []
+    for n, j in enumerate(rs.j_active):
+        if j > 0:
+            own = n == rs.k and not (rs.step.kind == "carbon-split" and rs.stay)
+            ends.append(1.0 / j if own else 0.5 / j)
+    ends += [0.5 / j for period in rs.passive for j, f in period if j > 0 and f > 0]
+    return min(ends) if ends else None
+
+
+def delay_bounds(resolved: ResolvedWalk, name: str) -> tuple[float, float]:
+    """Search interval (0, τ_max] [s] of delay ``name``: up to the first sign change of any coupling factor of
+    any pathway using it (the first lobe; later lobes are not what a sequence is set to)."""
+    ends = [
+        e
+        for p in resolved.feasible_peaks
+        for rs in p.segments
+        if rs.delay == name
+        for e in (_first_zero(rs),)
+        if e is not None
+    ]
+    if not ends:
+        raise BackboneError(f"{resolved.model.name}: delay {name!r} has no active coupling to set it")
+    return 0.0, min(ends)
+
+
+def _closed_form(segments, rates, trosy):
+    """τ* of a delay whose every use is one coupling with the same rates and nothing else, else None."""
+    keys = set()
+    for rs in segments:
+        step = rs.step
+        if step.kind not in ("inept", "refocus") or len(rs.j_active) != 1 or any(rs.passive) or step.delay != rs.delay:
+            return None
+        atom = rs.transverse[0]
+        c = step.coherences(trosy)
+        from backbone.experiments.model import coherence_for
+
+        pair = frozenset((coherence_for(c["inphase"], atom), coherence_for(c["antiphase"], atom)))
+        keys.add((rs.j_active[0], pair))
+    if len(keys) != 1:
+        return None
+    j, pair = keys.pop()
+    names = sorted(pair, key=str)
+    where = segments[0].step.where
+    if len(names) == 1:
+        return optimal_inept_delay(j, _rate(rates, names[0], where)), "closed form (optimal_inept_delay)"
+    return (
+        optimal_transfer_delay(j, _rate(rates, names[0], where), _rate(rates, names[1], where)),
+        "closed form (optimal_transfer_delay)",
+    )
+
+
+def optimize_delays(
+    resolved: ResolvedWalk, rates, *, objective: str | None = None, trosy=False, sensitivity_enhanced=None
+) -> DelayChoice:
+    """Optimal value of every named delay of ``resolved.model`` under ``objective`` with ``rates`` (a RateSet or
+    :class:`~backbone.experiments.walk.NoRelaxation`), vectorized over the rates' condition grid (module notes).
+
+    An infeasible walk gives no delays (an empty mapping).
+    """
+    model = resolved.model
+    trosy, se = _mode(model, trosy, sensitivity_enhanced)
+    obj = check_objective(resolved, objective)
+    peaks = resolved.feasible_peaks
+    shape = tuple(getattr(rates, "shape", ()))
+    if not peaks:
+        return DelayChoice(MappingProxyType({}), obj, MappingProxyType({}))
+    targets = [resolved.peak(obj)] if obj not in OBJECTIVES else list(peaks)
+
+    def amp(rs, tau):
+        return segment_amplitude(rs, tau, rates, trosy=trosy, sensitivity_enhanced=se)
+
+    # Pathways of different peaks often pass the same segment (same step, pair and couplings): within one
+    # evaluation of an objective its amplitude is computed once (``cache``, keyed by segment and delay).
+    def factor(p, d, tau, cache=None):
+        cache = {} if cache is None else cache
+        out = 1.0
+        for rs in p.segments:
+            if rs.delay == d:
+                key = (rs.signature, d)
+                value = cache.get(key)
+                if value is None:
+                    value = cache[key] = amp(rs, tau)
+                out = out * value
+        return out
+
+    fixed = {}
+    for p in peaks:
+        f = np.asarray(p.factor, dtype=float)
+        for rs in p.segments:
+            if rs.delay is None:
+                f = f * amp(rs, 0.0)
+        fixed[p.label] = f
+
+    delays: dict[str, np.ndarray] = {}
+    methods: dict[str, str] = {}
+    joint: list[tuple[str, list]] = []
+    for d in model.delay_names:
+        users = [p for p in targets if any(rs.delay == d for rs in p.segments)]
+        mode = obj
+        if not users:
+            users = [p for p in peaks if any(rs.delay == d for rs in p.segments)]
+            mode = "weakest"
+        if not users:
+            continue
+        sigs = {tuple(rs.signature for rs in p.segments if rs.delay == d) for p in users}
+        common = len(sigs) == 1
+        bounds = delay_bounds(resolved, d)
+        if mode == "weakest" and not common:
+            joint.append((d, users))
+            continue
+        segs = [rs for rs in users[0].segments if rs.delay == d]
+        closed = _closed_form(segs, rates, trosy) if common else None
+        if closed is not None:
+            delays[d], methods[d] = closed
+            continue
+        if common or mode not in ("geometric-mean",):
+            p0 = users[0]
+
+            def func(tau, p0=p0, d=d):
+                return factor(p0, d, tau)
+
+        else:
+
+            def func(tau, users=users, d=d):
+                out, cache = 1.0, {}
+                for p in users:
+                    out = out * np.maximum(factor(p, d, tau, cache), 0.0)
+                return out ** (1.0 / len(users))
+
+        delays[d] = optimal_delay(func, bounds).tau
+        methods[d] = "alone (numerical)"
+
+    if joint:
+        names = [d for d, _ in joint]
+        users = list({p.label: p for _, us in joint for p in us}.values())
+        if len(names) > _MAX_JOINT:
+            raise BackboneError(
+                f"{model.name}: {len(names)} delays ({', '.join(names)}) would have to be optimized jointly; at most "
+                f"{_MAX_JOINT} are supported"
+            )
+
+        def joint_func(*taus):
+            out, cache = None, {}
+            for p in users:
+                v = fixed[p.label]
+                for d, tau in zip(names, taus):
+                    v = v * factor(p, d, tau, cache)
+                out = v if out is None else np.minimum(out, v)
+            return out
+
+        bounds = [delay_bounds(resolved, d) for d in names]
+        if len(names) == 1:
+            delays[names[0]] = optimal_delay(joint_func, bounds[0]).tau
+            methods[names[0]] = "alone (numerical, weakest peak)"
+        else:
+            res = optimal_delays(joint_func, bounds)
+            for d, tau in zip(names, res.taus):
+                delays[d] = tau
+                methods[d] = "joint with " + ", ".join(n for n in names if n != d) + " (numerical, weakest peak)"
+    out = {d: np.broadcast_to(np.asarray(delays[d], dtype=float), shape) for d in model.delay_names if d in delays}
+    return DelayChoice(MappingProxyType(out), obj, MappingProxyType({d: methods[d] for d in out}))
+
+
+_TEXTBOOK_CACHE: dict = {}
+_TEXTBOOK_CACHE_SIZE = 512
+
+
+def _textbook_key(resolved: ResolvedWalk, objective, trosy, sensitivity_enhanced):
+    """Everything zero-rate delays depend on: the model's structure, couplings per pathway and the options."""
+    model = resolved.model
+    structure = tuple((s.kind, s.periods, s.mode, s.delay, s.within, s.t_max_s, s.fixed_delay_s) for s in model.steps)
+    pathways = tuple(
+        (p.label, p.feasible, p.factor, tuple((rs.signature, rs.delay) for rs in p.segments)) for p in resolved.peaks
+    )
+    return (id(model), model.source, structure, pathways, objective, bool(trosy), sensitivity_enhanced)
+
+
+def textbook_delays(resolved: ResolvedWalk, *, objective: str | None = None, trosy=False, sensitivity_enhanced=None) -> dict:
+    """Delays [s, floats] maximizing the objective with every rate zero (1/(2J)-type values); {} if infeasible.
+
+    They depend on the model and the residue's couplings only, so they are remembered (keyed by both)."""
+    key = _textbook_key(resolved, objective, trosy, sensitivity_enhanced)
+    hit = _TEXTBOOK_CACHE.get(key)
+    if hit is None:
+        choice = optimize_delays(
+            resolved, NoRelaxation(), objective=objective, trosy=trosy, sensitivity_enhanced=sensitivity_enhanced
+        )
+        hit = {d: float(v) for d, v in choice.delays.items()}
+        if len(_TEXTBOOK_CACHE) >= _TEXTBOOK_CACHE_SIZE:
+            _TEXTBOOK_CACHE.clear()
+        _TEXTBOOK_CACHE[key] = hit
+    return dict(hit)

@@ -1,0 +1,448 @@
+"""Planning: every requested experiment walked at optimized and textbook delays, against the HSQC.
+
+:func:`plan` orchestrates the layers below it and computes nothing of its own: rates from the relaxation engine
+(:func:`backbone.relaxation.relaxation_rates`) for one condition or a grid of τc and field, each experiment model
+placed on a residue (:func:`backbone.experiments.resolve`), its delays optimized and its textbook delays found
+(:mod:`backbone.experiments.delays`), and the walk evaluated at both (:func:`backbone.experiments.walk`).
+
+Definitions
+-----------
+* ``throughput`` — a peak's signed throughput at the optimized delays (normalization in
+  :mod:`backbone.experiments.walk`: 1 is a lossless sensitivity-enhanced transfer); ``textbook_throughput`` —
+  the same at the textbook delays (the objective's optimum with every rate zero), but WITH relaxation.
+* ``objective`` — what the delays maximize: the model's default (``weakest`` needed peak, a named peak, or
+  ``geometric-mean``) unless the caller overrides it; ``gain`` — objective at optimized over textbook delays.
+* ``relative_sensitivity`` — the experiment's objective value at its optimized delays divided by that of the
+  2D 1H-15N HSQC with sensitivity enhancement (the bundled ``HSQC`` model at its own optimized delays), same
+  residue, labeling and conditions. The HSQC's sampling of 60 ms in 15N and the 3D experiments' shorter
+  indirect sampling are part of the comparison, as they are in practice. NaN (JSON null) when the HSQC itself is
+  infeasible (e.g. proline).
+* ``trosy`` — False: plain versions; True: TROSY versions of every model that has one (the TROSY model itself
+  always is); ``"auto"``: per condition, the version with the larger objective value.
+* The condition-level plan walks the typical residue of :data:`backbone.experiments.TYPICAL_SEQUENCE` (a Lys
+  preceded by a Leu); give ``sequence`` and ``residue`` for a particular residue of a protein.
+
+Until the relaxation engine computes every coherence a model names (:data:`backbone.experiments.
+ANNOUNCED_COHERENCES`), planning such a model raises a :class:`~backbone.errors.BackboneError` naming the
+missing coherence.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from types import MappingProxyType
+
+import numpy as np
+
+from backbone.errors import BackboneError
+
+__all__ = ["PeakPlan", "StepPlan", "ExperimentPlan", "PlanResult", "plan"]
+
+_REFERENCE = "HSQC"
+
+
+def _json(value):
+    """Float/bool/None or nested lists of them for JSON."""
+    if value is None:
+        return None
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    arr = np.asarray(value)
+    if arr.dtype == bool:
+        return bool(arr) if arr.ndim == 0 else arr.tolist()
+    arr = arr.astype(float)
+    if arr.ndim == 0:
+        v = float(arr)
+        return v if np.isfinite(v) else None
+    if np.all(np.isfinite(arr)):
+        return arr.tolist()
+    return [_json(x) for x in arr]
+
+
+@dataclass(frozen=True)
+class PeakPlan:
+    """A peak of a planned experiment; arrays have the condition shape."""
+
+    label: str
+    sign: int
+    throughput: np.ndarray
+    textbook_throughput: np.ndarray
+    feasible: bool
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class StepPlan:
+    """A step of a planned experiment: atoms, delay [s] optimized and textbook, efficiency, rate [s⁻¹]."""
+
+    name: str
+    kind: str
+    from_: str
+    to: str
+    delay_name: str | None
+    delay_s: object
+    textbook_delay_s: object
+    efficiency: object
+    rate_s: object
+
+
+@dataclass(frozen=True)
+class ExperimentPlan:
+    """One experiment in one labeling across the condition grid (see the module docstring)."""
+
+    name: str
+    trosy: object
+    sensitivity_enhanced: bool
+    labeling: str
+    field_mhz: np.ndarray
+    tau_c_ns: np.ndarray
+    residue: int
+    objective: str
+    objective_value: np.ndarray
+    textbook_objective_value: np.ndarray
+    relative_sensitivity: np.ndarray
+    feasible: bool
+    reason: str
+    peaks: tuple[PeakPlan, ...]
+    steps: tuple[StepPlan, ...]
+    delays: Mapping
+    textbook_delays: Mapping
+    delay_methods: Mapping
+
+    @property
+    def gain(self) -> np.ndarray:
+        """Objective at the optimized delays over the objective at the textbook delays."""
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(self.textbook_objective_value > 0, self.objective_value / self.textbook_objective_value, np.nan)
+
+    def as_dict(self) -> dict:
+        """The per-experiment object of the ``plan --json`` contract, plus objective, gain, delays, residue."""
+        return {
+            "name": self.name,
+            "trosy": _json(self.trosy),
+            "labeling": self.labeling,
+            "field_mhz": _json(self.field_mhz),
+            "tau_c_ns": _json(self.tau_c_ns),
+            "relative_sensitivity": _json(self.relative_sensitivity) if self.feasible else 0.0,
+            "feasible": bool(self.feasible),
+            "reason": self.reason,
+            "peaks": [
+                {
+                    "label": p.label,
+                    "throughput": _json(p.throughput),
+                    "textbook_throughput": _json(p.textbook_throughput),
+                    "sign": int(p.sign),
+                }
+                for p in self.peaks
+            ],
+            "steps": [
+                {
+                    "name": s.name,
+                    "from": s.from_,
+                    "to": s.to,
+                    "delay_s": _json(s.delay_s),
+                    "textbook_delay_s": _json(s.textbook_delay_s),
+                    "efficiency": _json(s.efficiency),
+                    "rate_s": _json(s.rate_s),
+                }
+                for s in self.steps
+            ],
+            "objective": self.objective,
+            "gain": _json(self.gain) if self.feasible else None,
+            "sensitivity_enhanced": self.sensitivity_enhanced,
+            "residue": self.residue,
+            "delays": {
+                d: {
+                    "delay_s": _json(v),
+                    "textbook_delay_s": _json(self.textbook_delays.get(d)),
+                    "method": self.delay_methods.get(d, ""),
+                }
+                for d, v in self.delays.items()
+            },
+        }
+
+
+@dataclass(frozen=True)
+class PlanResult:
+    """All planned experiments; :meth:`as_dict` is the ``plan --json`` object, :meth:`to_frame` a table."""
+
+    experiments: tuple[ExperimentPlan, ...]
+    shape: tuple[int, ...]
+
+    def __getitem__(self, name: str) -> ExperimentPlan:
+        for e in self.experiments:
+            if e.name.lower() == str(name).lower():
+                return e
+        raise BackboneError(f"plan has no experiment {name!r}; it has {', '.join(e.name for e in self.experiments)}")
+
+    def as_dict(self) -> dict:
+        """``{"experiments": [...]}`` exactly as ARCHITECTURE.md's plan contract (with extra keys per experiment)."""
+        return {"experiments": [e.as_dict() for e in self.experiments]}
+
+    def to_frame(self, kind: str = "peaks"):
+        """A pandas DataFrame, one row per experiment × peak (``kind="peaks"``) or × step (``"steps"``) × grid
+        point; units in the column names. pandas is imported here, not at module import."""
+        import pandas as pd
+
+        if kind not in ("peaks", "steps"):
+            raise BackboneError(f"to_frame: kind {kind!r} is not allowed; use 'peaks' or 'steps'")
+        rows = []
+        for e in self.experiments:
+            n = max(1, int(np.prod(self.shape)))
+
+            def flat(x, n=n):
+                if x is None:
+                    return [None] * n
+                return list(np.broadcast_to(np.asarray(x), self.shape).ravel()) if self.shape else [np.asarray(x).item()]
+
+            base = {
+                "experiment": flat(np.asarray(e.name, dtype=object)),
+                "trosy": flat(e.trosy),
+                "field_mhz": flat(e.field_mhz),
+                "tau_c_ns": flat(e.tau_c_ns),
+            }
+            if kind == "peaks":
+                for p in e.peaks:
+                    tp, tb = flat(p.throughput), flat(p.textbook_throughput)
+                    rel = flat(e.relative_sensitivity)
+                    for k in range(n):
+                        rows.append(
+                            {
+                                "experiment": e.name,
+                                "trosy": bool(base["trosy"][k]),
+                                "labeling": e.labeling,
+                                "field_mhz": float(base["field_mhz"][k]),
+                                "tau_c_ns": float(base["tau_c_ns"][k]),
+                                "peak": p.label,
+                                "sign": p.sign,
+                                "throughput": float(tp[k]),
+                                "textbook_throughput": float(tb[k]),
+                                "relative_sensitivity": float(rel[k]) if e.feasible else 0.0,
+                                "feasible": p.feasible,
+                                "reason": p.reason,
+                            }
+                        )
+            else:
+                for s in e.steps:
+                    d, tbd, eff, rate = flat(s.delay_s), flat(s.textbook_delay_s), flat(s.efficiency), flat(s.rate_s)
+                    for k in range(n):
+                        rows.append(
+                            {
+                                "experiment": e.name,
+                                "trosy": bool(base["trosy"][k]),
+                                "labeling": e.labeling,
+                                "field_mhz": float(base["field_mhz"][k]),
+                                "tau_c_ns": float(base["tau_c_ns"][k]),
+                                "step": s.name,
+                                "from": s.from_,
+                                "to": s.to,
+                                "delay_ms": None if d[k] is None else float(d[k]) * 1e3,
+                                "textbook_delay_ms": None if tbd[k] is None else float(tbd[k]) * 1e3,
+                                "efficiency": None if eff[k] is None else float(eff[k]),
+                                "rate_per_s": None if rate[k] is None else float(rate[k]),
+                            }
+                        )
+        return pd.DataFrame(rows)
+
+
+# ---------------------------------------------------------------------------------------------------------
+# Orchestration
+# ---------------------------------------------------------------------------------------------------------
+
+
+def _variant(model, resolved, rates, scheme, G, residue, trosy, objective):
+    """Optimized and textbook walks of one version (plain or TROSY) of one model."""
+    from backbone.experiments import objective_value, optimize_delays, peak_amplitudes, textbook_delays, walk
+
+    choice = optimize_delays(resolved, rates, objective=objective, trosy=trosy)
+    tb = textbook_delays(resolved, objective=choice.objective if objective is not None else None, trosy=trosy)
+    w_opt = walk(model, G, residue, scheme, rates, delays=choice.delays, trosy=trosy, resolved=resolved)
+    w_tb = walk(model, G, residue, scheme, rates, delays=tb, trosy=trosy, resolved=resolved)
+    shape = tuple(rates.shape)
+    if resolved.feasible:
+        obj = objective_value(peak_amplitudes(resolved, rates, choice.delays, trosy=trosy), choice.objective)
+        obj_tb = objective_value(peak_amplitudes(resolved, rates, tb, trosy=trosy), choice.objective)
+    else:
+        obj = obj_tb = np.zeros(shape)
+    return {
+        "choice": choice,
+        "textbook": tb,
+        "opt": w_opt,
+        "tb": w_tb,
+        "obj": np.broadcast_to(obj, shape),
+        "obj_tb": np.broadcast_to(obj_tb, shape),
+    }
+
+
+def _pick(mask, a, b):
+    """Elementwise a where mask else b, for arrays, None or scalars."""
+    if a is None or b is None:
+        return a if b is None else b
+    return np.where(mask, a, b)
+
+
+def plan(
+    conditions=None,
+    *,
+    tau_c_ns=None,
+    field_mhz=None,
+    labeling="13c15n",
+    deuteration=None,
+    s2=1.0,
+    tau_e_ns=0.0,
+    experiments=None,
+    trosy=False,
+    objective=None,
+    sequence=None,
+    residue=None,
+) -> PlanResult:
+    """Plan experiments for one condition or a grid of conditions.
+
+    Parameters
+    ----------
+    conditions : backbone.conditions.Conditions, optional
+        Resolved conditions (τc, field, labeling, S², τe); alternatively give the keywords below.
+    tau_c_ns, field_mhz : float or array
+        τc [ns] and field as the 1H frequency [MHz]; arrays broadcast (e.g. ``tau_c_ns[:, None]`` against
+        ``field_mhz[None, :]`` for a grid).
+    labeling : str, path or LabelingScheme
+        Labeling scheme (id, path, or a loaded scheme); ``deuteration`` overrides its level.
+    s2, tau_e_ns : model-free order parameter and internal correlation time [ns].
+    experiments : list of str, optional
+        Names, file stems or paths; default every bundled model (:func:`backbone.experiments.registered_experiments`).
+    trosy : False, True or "auto"
+    objective : str, optional
+        Override every model's default objective (a peak label only makes sense for one experiment).
+    sequence, residue : str and int, optional
+        A protein sequence and the residue i to walk; default the typical residue.
+
+    Returns
+    -------
+    PlanResult
+    """
+    from backbone.experiments import load_experiment, registered_experiments, resolve, typical_chain
+    from backbone.experiments.walk import TYPICAL_RESIDUE
+    from backbone.labeling import LabelingScheme, load_scheme
+    from backbone.relaxation import relaxation_rates
+
+    if trosy not in (False, True, "auto"):
+        raise BackboneError(f"trosy = {trosy!r} is not allowed; use false, true or 'auto'")
+    if conditions is not None:
+        if tau_c_ns is not None or field_mhz is not None:
+            raise BackboneError("plan: give either conditions or tau_c_ns/field_mhz, not both")
+        scheme = conditions.labeling
+        tau_c = conditions.tau_c
+        mhz = conditions.proton_mhz
+        s2, tau_e = conditions.s2, conditions.tau_e
+    else:
+        if tau_c_ns is None or field_mhz is None:
+            raise BackboneError("plan: give conditions, or both tau_c_ns and field_mhz")
+        scheme = labeling if isinstance(labeling, LabelingScheme) else load_scheme(labeling, deuteration=deuteration)
+        tau_c = np.asarray(tau_c_ns, dtype=float) * 1e-9
+        mhz = np.asarray(field_mhz, dtype=float)
+        tau_e = np.asarray(tau_e_ns, dtype=float) * 1e-9
+    rates = relaxation_rates(tau_c, proton_mhz=mhz, labeling=scheme, s2=s2, tau_e=tau_e)
+    shape = tuple(rates.shape)
+
+    if sequence is not None:
+        from backbone.graph import build_chain
+
+        G = build_chain(sequence)
+        if residue is None:
+            raise BackboneError("plan: with a sequence, give the residue number to walk")
+    else:
+        if residue is not None:
+            raise BackboneError("plan: a residue number needs the sequence it belongs to")
+        G, residue = typical_chain(), TYPICAL_RESIDUE
+
+    names = list(registered_experiments()) if experiments is None else list(experiments)
+    if not names:
+        raise BackboneError("plan: experiments must name at least one experiment")
+    models = [load_experiment(n) for n in names]
+
+    reference = load_experiment(_REFERENCE)
+    ref_resolved = resolve(reference, G, residue, scheme)
+    ref = _variant(reference, ref_resolved, rates, scheme, G, residue, False, None)["obj"] if ref_resolved.feasible else None
+
+    plans = []
+    for model in models:
+        resolved = resolve(model, G, residue, scheme)
+        if model.trosy_only:
+            modes = [True]
+        elif trosy == "auto" and model.trosy_capable:
+            modes = [False, True]
+        else:
+            modes = [bool(trosy) and model.trosy_capable]
+        variants = {m: _variant(model, resolved, rates, scheme, G, residue, m, objective) for m in modes}
+        if len(modes) == 2:
+            better = variants[True]["obj"] > variants[False]["obj"]
+            use_trosy = better if shape else bool(better)
+        else:
+            better = np.full(shape, modes[0])
+            use_trosy = modes[0]
+        vn = variants[modes[0]]
+        vt = variants[modes[-1]]
+
+        def pick(key_t, vt=vt, vn=vn, better=better):
+            return _pick(better, key_t(vt), key_t(vn))
+
+        peaks = []
+        for k, p in enumerate(vn["opt"].peaks):
+            peaks.append(
+                PeakPlan(
+                    label=p.label,
+                    sign=p.sign,
+                    throughput=pick(lambda v, k=k: v["opt"].peaks[k].throughput),
+                    textbook_throughput=pick(lambda v, k=k: v["tb"].peaks[k].throughput),
+                    feasible=p.feasible,
+                    reason=p.reason,
+                )
+            )
+        steps = []
+        for k, s in enumerate(vn["opt"].steps):
+            steps.append(
+                StepPlan(
+                    name=s.name,
+                    kind=s.kind,
+                    from_=s.from_,
+                    to=s.to,
+                    delay_name=s.delay_name,
+                    delay_s=pick(lambda v, k=k: v["opt"].steps[k].delay_s),
+                    textbook_delay_s=pick(lambda v, k=k: v["tb"].steps[k].delay_s),
+                    efficiency=pick(lambda v, k=k: v["opt"].steps[k].efficiency),
+                    rate_s=pick(lambda v, k=k: v["opt"].steps[k].rate_s),
+                )
+            )
+        obj = pick(lambda v: v["obj"])
+        obj_tb = pick(lambda v: v["obj_tb"])
+        if ref is None:
+            rel = np.full(shape, np.nan)
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                rel = np.where(ref > 0, obj / ref, np.nan)
+        delays = {d: pick(lambda v, d=d: v["choice"].delays.get(d)) for d in vn["choice"].delays}
+        tb_delays = {d: pick(lambda v, d=d: v["textbook"].get(d)) for d in vn["textbook"]}
+        plans.append(
+            ExperimentPlan(
+                name=model.name,
+                trosy=use_trosy,
+                sensitivity_enhanced=vn["opt"].sensitivity_enhanced,
+                labeling=resolved.labeling,
+                field_mhz=np.asarray(rates.proton_mhz),
+                tau_c_ns=np.asarray(rates.tau_c) * 1e9,
+                residue=residue,
+                objective=vn["choice"].objective,
+                objective_value=np.asarray(obj),
+                textbook_objective_value=np.asarray(obj_tb),
+                relative_sensitivity=np.asarray(rel) if resolved.feasible else np.zeros(shape),
+                feasible=resolved.feasible,
+                reason=resolved.reason,
+                peaks=tuple(peaks),
+                steps=tuple(steps),
+                delays=MappingProxyType(delays),
+                textbook_delays=MappingProxyType(tb_delays),
+                delay_methods=MappingProxyType(dict(vn["choice"].methods)),
+            )
+        )
+    return PlanResult(tuple(plans), shape)
