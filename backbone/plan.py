@@ -21,10 +21,6 @@ Definitions
   always is); ``"auto"``: per condition, the version with the larger objective value.
 * The condition-level plan walks the typical residue of :data:`backbone.experiments.TYPICAL_SEQUENCE` (a Lys
   preceded by a Leu); give ``sequence`` and ``residue`` for a particular residue of a protein.
-
-Until the relaxation engine computes every coherence a model names (:data:`backbone.experiments.
-ANNOUNCED_COHERENCES`), planning such a model raises a :class:`~backbone.errors.BackboneError` naming the
-missing coherence.
 """
 
 from __future__ import annotations

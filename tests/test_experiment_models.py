@@ -10,7 +10,6 @@ import pytest
 
 from backbone.errors import BackboneError
 from backbone.experiments import (
-    ANNOUNCED_COHERENCES,
     ExperimentModel,
     experiment_from_dict,
     known_coherences,
@@ -139,9 +138,8 @@ def test_every_coherence_is_known_to_the_engine(name):
     assert used <= set(COHERENCES)
 
 
-def test_known_coherences_include_engine_and_announced():
-    assert set(COHERENCES) <= set(known_coherences())
-    assert set(ANNOUNCED_COHERENCES) <= set(known_coherences())
+def test_known_coherences_are_the_engines():
+    assert set(known_coherences()) == set(COHERENCES)
 
 
 def test_readme_example_is_a_valid_model():

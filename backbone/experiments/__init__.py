@@ -17,7 +17,6 @@ from backbone.experiments.delays import (
     textbook_delays,
 )
 from backbone.experiments.model import (
-    ANNOUNCED_COHERENCES,
     EVOLUTION_MODES,
     OBJECTIVES,
     STEP_KINDS,
@@ -51,7 +50,6 @@ __all__ = [
     "EVOLUTION_MODES",
     "WALKS",
     "OBJECTIVES",
-    "ANNOUNCED_COHERENCES",
     "known_coherences",
     "Atom",
     "Step",

@@ -12,8 +12,7 @@ Validation happens on construction, level by level (:class:`Atom`, :class:`Step`
 :class:`ExperimentModel`); every message names the file, the step (by name and index) or peak, and the key, and
 unknown keys are rejected with the closest valid suggestion. Coupling kinds are checked against the graph's
 coupling table (:data:`backbone.graph.COUPLINGS`) and against the atoms the step joins; coherence names against
-the relaxation engine's :data:`~backbone.relaxation.COHERENCES` plus :data:`ANNOUNCED_COHERENCES` (names the
-engine will compute; until it does, walking a model that uses one raises a :class:`BackboneError` naming it).
+the relaxation engine's :data:`~backbone.relaxation.COHERENCES`.
 Every peak's pathway is traced through the steps at load time, so a peak that references a missing branch, or
 a step that cannot follow from where the magnetization is, is reported before anything is computed.
 
@@ -21,7 +20,7 @@ Public API
 ----------
 ``Atom``, ``Step``, ``Peak``, ``ExperimentModel``, ``load_experiment``, ``registered_experiments``,
 ``experiment_from_dict``, and the vocabularies ``STEP_KINDS``, ``EVOLUTION_MODES``, ``WALKS``, ``OBJECTIVES``,
-``ANNOUNCED_COHERENCES``, ``known_coherences``.
+``known_coherences``.
 """
 
 from __future__ import annotations
@@ -30,13 +29,13 @@ import difflib
 import functools
 import math
 import re
-import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 
 from backbone.errors import BackboneError
+from backbone.tomlfile import read_toml
 from backbone.graph.couplings import COUPLINGS
 from backbone.labeling.scheme import SITES
 from backbone.resources import models_dir
@@ -46,7 +45,6 @@ __all__ = [
     "EVOLUTION_MODES",
     "WALKS",
     "OBJECTIVES",
-    "ANNOUNCED_COHERENCES",
     "known_coherences",
     "Atom",
     "Step",
@@ -77,29 +75,11 @@ WALKS = ("out-and-back", "straight-through")
 #: Objective names besides a peak label.
 OBJECTIVES = ("weakest", "geometric-mean")
 
-#: Coherences the relaxation engine has announced but does not compute yet; the names are valid in model files
-#: and walking a model that needs one raises a BackboneError naming it until the engine provides it.
-ANNOUNCED_COHERENCES = MappingProxyType(
-    {
-        "2NxCz": "15N anti-phase to C'(i-1), 1H-decoupled",
-        "2NxCAz": "15N anti-phase to a CA, 1H-decoupled",
-        "HAx": "in-phase HA",
-        "2HAxCAz": "HA anti-phase to its CA",
-        "2CAxHAz": "CA anti-phase to its HA",
-        "HBx": "in-phase HB",
-        "2CBxHBz": "CB anti-phase to its HB",
-        "2CAxCBz": "CA anti-phase to CB",
-        "2CBxCAz": "CB anti-phase to CA",
-        "2CxCAz": "C' anti-phase to its CA",
-    }
-)
-
-
 def known_coherences() -> tuple[str, ...]:
-    """Coherence names a model may use: the engine's COHERENCES and the announced ones, in that order."""
+    """Coherence names a model may use: those the relaxation engine computes (its ``COHERENCES``)."""
     from backbone.relaxation.engine import COHERENCES
 
-    return tuple(COHERENCES) + tuple(n for n in ANNOUNCED_COHERENCES if n not in COHERENCES)
+    return tuple(COHERENCES)
 
 
 # Atom names a step may use (PDB names; HA stands for HA2 of Gly, HB for the beta protons, CG for any gamma C).
@@ -967,18 +947,7 @@ def experiment_from_dict(data: Mapping, source: str) -> ExperimentModel:
 
 
 def _read_file(path: Path) -> ExperimentModel:
-    where = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as err:
-        raise BackboneError(f"{where}: cannot read experiment model file ({err.strerror or err})") from err
-    except UnicodeDecodeError as err:
-        raise BackboneError(f"{where}: experiment model file is not UTF-8 text") from err
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise BackboneError(f"{where}: not valid TOML: {err}") from err
-    return experiment_from_dict(data, where)
+    return experiment_from_dict(read_toml(path, "experiment model file"), str(path))
 
 
 #: Order in which bundled models are listed (2D references first, then by the nuclei they add); files not

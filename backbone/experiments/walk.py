@@ -61,7 +61,6 @@ import numpy as np
 
 from backbone.errors import BackboneError
 from backbone.experiments.model import (
-    ANNOUNCED_COHERENCES,
     ExperimentModel,
     Segment,
     coherence_for,
@@ -146,13 +145,6 @@ def _rate(rates, spec, where: str) -> np.ndarray:
     try:
         return np.asarray(rates.coherence(spec), dtype=float)
     except BackboneError as err:
-        from backbone.relaxation.engine import COHERENCES
-
-        if spec not in COHERENCES and spec in ANNOUNCED_COHERENCES:
-            raise BackboneError(
-                f"{where}: coherence {spec!r} ({ANNOUNCED_COHERENCES[spec]}) is not computed by the relaxation "
-                "engine yet; this experiment can be walked with relaxation once the engine provides it"
-            ) from err
         raise BackboneError(f"{where}: {err}") from err
 
 
