@@ -102,6 +102,120 @@ def _cmd_labelings(args) -> int:
     return 0
 
 
+def _experiment_list(text):
+    if text is None:
+        return None
+    names = [n.strip() for n in text.split(",") if n.strip()]
+    if not names:
+        raise BackboneError("--experiment: give one or more experiment names separated by commas")
+    return names
+
+
+_TROSY = {"on": True, "off": False, "auto": "auto"}
+
+
+def _cmd_plan(args) -> int:
+    from backbone.plan import plan
+    from backbone.report import plan_table
+
+    if args.scenario:
+        return _cmd_plan_scenario(args)
+    conditions = _conditions_from_args(args)
+    if args.residue is not None and not args.sequence:
+        raise BackboneError("--residue needs --sequence (the residue is counted along that sequence)")
+    sequence = None
+    if args.residue is not None:
+        from backbone.graph import parse_sequence
+
+        sequence = parse_sequence(_read_text(args.sequence, "sequence file"), where=args.sequence)
+    result = plan(
+        conditions,
+        experiments=_experiment_list(args.experiment),
+        trosy=_TROSY[args.trosy],
+        objective=args.objective,
+        sequence=sequence,
+        residue=args.residue,
+    )
+    doc = result.as_dict()
+    doc["conditions"] = conditions.as_dict()
+    if args.json:
+        print(json.dumps(doc, indent=2))
+    else:
+        print(_conditions_line(doc["conditions"]))
+        print()
+        print(plan_table(doc))
+    return 0
+
+
+def _conditions_line(c: dict) -> str:
+    return (
+        f"tau_c {c['tau_c_ns']:.3g} ns ({c['tau_c_source']}), 1H {c['field_mhz']:g} MHz, {c['temperature_k']:.2f} K "
+        f"in {c['solvent']}, labeling {c['labeling']}"
+    )
+
+
+def _cmd_plan_scenario(args) -> int:
+    given = [f for f in ("tau_c", "sequence", "mass", "b0", "field", "deuteration") if getattr(args, f) is not None]
+    if given:
+        raise BackboneError(
+            f"{args.scenario}: a scenario file sets the conditions; drop --{given[0].replace('_', '-')} "
+            "(or plan without the file)"
+        )
+    from backbone.planning import plan_scenario, scenario_plan_table
+    from backbone.scenario import load_scenario
+
+    scenario = load_scenario(args.scenario)
+    result = plan_scenario(scenario, experiments=_experiment_list(args.experiment))
+    if args.json:
+        print(json.dumps(result.as_dict(), indent=2))
+    else:
+        print(scenario_plan_table(result))
+    return 0
+
+
+def _cmd_experiments(args) -> int:
+    from backbone.experiments import registered_experiments
+    from backbone.report import experiments_table
+
+    models = registered_experiments().values()
+    if args.json:
+        print(json.dumps({"experiments": [_model_summary(m) for m in models]}, indent=2))
+    else:
+        print(experiments_table(models))
+    return 0
+
+
+def _model_summary(m) -> dict:
+    return {
+        "name": m.name,
+        "walk": m.walk,
+        "dimensions": list(m.dimensions),
+        "needs": list(m.needs),
+        "trosy_capable": m.trosy_capable,
+        "peaks": [{"label": p.label, "sign": p.sign} for p in m.peaks],
+        "objective": m.objective,
+        "source": str(m.source),
+    }
+
+
+def _cmd_verify(args) -> int:
+    from backbone.report import verify_document
+    from backbone.transfer.verify import format_verify_table, verify_experiment, verify_step_kinds
+
+    if args.experiment:
+        from backbone.experiments import load_experiment
+
+        rows = verify_experiment(load_experiment(args.experiment))
+    else:
+        rows = verify_step_kinds()
+    doc = verify_document(rows)
+    if args.json:
+        print(json.dumps(doc, indent=2))
+    else:
+        print(format_verify_table(rows))
+    return 0 if doc["passed"] else 1
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="backbone", description="Plan protein backbone triple-resonance NMR experiments.")
     from backbone import __version__
@@ -113,6 +227,32 @@ def build_parser() -> argparse.ArgumentParser:
     _add_condition_options(p)
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
     p.set_defaults(func=_cmd_rates)
+
+    p = sub.add_parser(
+        "plan",
+        help="throughput, optimal delays and relative sensitivity of experiments (from a scenario file or flags)",
+    )
+    p.add_argument("scenario", nargs="?", metavar="SCENARIO", help="scenario file (TOML; see scenarios/README.md)")
+    _add_condition_options(p)
+    g = p.add_argument_group("experiments")
+    g.add_argument("--experiment", metavar="NAME[,NAME...]", help="experiments to plan (default: every bundled one); names or TOML files")
+    g.add_argument(
+        "--trosy", nargs="?", const="on", default="off", choices=sorted(_TROSY),
+        help="TROSY versions: --trosy (on), --trosy auto (the better per condition); default off",
+    )
+    g.add_argument("--objective", metavar="PEAK|weakest|geometric-mean", help="override each experiment's delay objective")
+    g.add_argument("--residue", type=int, metavar="N", help="walk residue N of --sequence instead of the typical residue")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_plan)
+
+    p = sub.add_parser("experiments", help="list the bundled experiment models and what each needs")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_experiments)
+
+    p = sub.add_parser("verify", help="check the fast step algebra against an exact density-operator propagator")
+    p.add_argument("experiment", nargs="?", metavar="EXPERIMENT", help="an experiment name or TOML file (default: every step kind)")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_verify)
 
     p = sub.add_parser("labelings", help="list the bundled labeling schemes")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")

@@ -7,8 +7,18 @@ each ``*_table`` function renders such a document as plain text for the terminal
 from __future__ import annotations
 
 import math
+import textwrap
 
-__all__ = ["rates_document", "rates_table", "labelings_table", "format_table"]
+__all__ = [
+    "CAUTION",
+    "rates_document",
+    "rates_table",
+    "labelings_table",
+    "plan_table",
+    "experiments_table",
+    "verify_document",
+    "format_table",
+]
 
 _NUCLEUS_NAMES = {
     "H": "1HN (amide)",
@@ -95,3 +105,85 @@ def labelings_table(schemes) -> str:
         deut = "-" if s.deuteration is None else f"{s.deuteration:.2f}" + (" (adjustable)" if s.deuteration_adjustable else "")
         rows.append([s.id, s.name, deut])
     return format_table(["id", "name", "deuteration"], rows, align="lll")
+
+
+CAUTION = (
+    "Caution: strong magnetic fields and cryogens are hazards around every spectrometer, and long high-power "
+    "periods (decoupling, spin locks) heat sample and probe; follow your facility's rules and the probe "
+    "maker's power and duty-cycle limits, which override any figure here."
+)
+
+
+def _ms(x) -> str:
+    return "-" if x is None else f"{1e3 * x:.2f}"
+
+
+def plan_table(doc: dict) -> str:
+    """Readable text of a ``plan --json`` document (one condition): per experiment its peaks, steps and
+    relative sensitivity, and the safety caution at the end."""
+    blocks = []
+    for e in doc["experiments"]:
+        head = (
+            f"{e['name']}{' (TROSY)' if e['trosy'] else ''}  labeling {e['labeling']}, 1H {_num(e['field_mhz'])} MHz, "
+            f"tau_c {_num(e['tau_c_ns'], 3)} ns"
+        )
+        if not e["feasible"]:
+            blocks.append(f"{head}\n  not feasible: {e['reason']}")
+            continue
+        lines = [
+            head,
+            f"  relative sensitivity {_num(e['relative_sensitivity'], 3)} (objective against the 2D 1H-15N HSQC); "
+            f"objective: {e.get('objective', '-')}, gain over textbook delays x{_num(e.get('gain'), 3)}",
+        ]
+        peaks = [
+            [p["label"], "+" if p["sign"] > 0 else "-", _num(p["throughput"], 3), _num(p["textbook_throughput"], 3)]
+            for p in e["peaks"]
+        ]
+        lines.append(_indent(format_table(["peak", "sign", "throughput", "at textbook delays"], peaks, align="lcrr")))
+        steps = [
+            [s["name"], f"{s['from']} -> {s['to']}", _ms(s["delay_s"]), _ms(s["textbook_delay_s"]),
+             _num(s["efficiency"], 3), _num(s["rate_s"], 3)]
+            for s in e["steps"]
+        ]
+        lines.append(
+            _indent(format_table(["step", "from -> to", "delay ms", "textbook ms", "efficiency", "rate s^-1"], steps, align="llrrrr"))
+        )
+        blocks.append("\n".join(lines))
+    return "\n\n".join(blocks + [textwrap.fill(CAUTION, width=110)])
+
+
+def _indent(text: str, by: str = "  ") -> str:
+    return "\n".join(by + line for line in text.splitlines())
+
+
+def experiments_table(models) -> str:
+    """One line per experiment model: name, walk, recorded nuclei, nuclei it needs labeled, TROSY, peaks."""
+    rows = [
+        [m.name, m.walk, ",".join(m.dimensions), ",".join(m.needs), "yes" if m.trosy_capable else "no",
+         " ".join(p.label for p in m.peaks)]
+        for m in models
+    ]
+    return format_table(["experiment", "walk", "dimensions", "needs labeled", "TROSY", "peaks"], rows, align="llllll")
+
+
+def verify_document(rows) -> dict:
+    """JSON-ready rows of a step-algebra verification (NaN becomes null)."""
+
+    def clean(x):
+        return None if isinstance(x, float) and not math.isfinite(x) else x
+
+    return {
+        "rows": [
+            {
+                "kind": r.kind,
+                "description": r.description,
+                "algebra": clean(r.algebra),
+                "reference": clean(r.reference),
+                "rel_error": clean(r.rel_error),
+                "passed": r.passed,
+                "conditions": r.conditions,
+            }
+            for r in rows
+        ],
+        "passed": all(r.passed is not False for r in rows),
+    }
