@@ -305,6 +305,13 @@ def test_presence_follows_labeling(scheme_id):
     assert set(_NEEDS) <= set(COHERENCES)
     for name, sites in _NEEDS.items():
         expected = all(scheme.isotope(s) == _MAGNETIC[s] for s in sites)
+        # A carbon-bound proton kept only as a minority under fractional deuteration still gives the coherences
+        # in which it is the transverse spin: they describe the 1H-bearing molecules (RateSet.minority).
+        first = sites[0]
+        if first in ("HA", "HB") and scheme.fraction(first) > 0 and all(
+            scheme.isotope(s) == _MAGNETIC[s] for s in sites[1:]
+        ):
+            expected = True
         assert (name in rates.coherences) == expected, name
         if expected:
             assert np.isfinite(rates.coherence(name)) and rates.coherence(name) > 0
@@ -398,3 +405,38 @@ def test_recovery_model_and_overrides(c13n15):
 def test_invalid_proton_bath(c13n15, bath, match):
     with pytest.raises(BackboneError, match=match):
         relaxation_rates(10e-9, proton_mhz=600.0, labeling=c13n15, proton_bath=bath)
+
+
+def test_minority_alpha_protons_under_fractional_deuteration():
+    # Fractional deuteration keeps a minority of 1H at HA: its rates are those of the 1H-bearing molecules.
+    # They fall as the surrounding protons are replaced by deuterons (dipolar terms scale with the partner's
+    # (gamma^2 S(S+1)), 1/15.9 for 2H: Abragam 1961), and never fall below the bonded CA-HA pair's own R2
+    # (Kay, Torchia & Bax 1989 form, written out here) in a 13C-labeled sample.
+    from scipy import constants as sc
+
+    tau_c, mhz = 15e-9, 600.0
+    r2 = []
+    for level in (0.5, 0.7, 0.9, 0.98):
+        rates = relaxation_rates(tau_c, proton_mhz=mhz, labeling=load_scheme("2h13c15n", deuteration=level))
+        assert "HA" in rates.unlabeled and "HA" not in rates.nuclei
+        assert "HA" in rates.minority
+        r2.append(float(rates.minority["HA"]["R2"]))
+        assert float(rates.coherence("HAx")) == r2[-1]
+    assert all(a > b for a, b in zip(r2, r2[1:]))
+    g_h, g_c = 2.6752218744e8, 6.728284e7
+    d = sc.mu_0 / (4 * np.pi) * sc.hbar * g_h * g_c / (1.09e-10) ** 3
+    b0 = 2 * np.pi * mhz * 1e6 / g_h
+    w_h, w_c = g_h * b0, g_c * b0
+
+    def jw(w):
+        return 0.4 * tau_c / (1 + (w * tau_c) ** 2)
+
+    pair = d**2 / 8 * (4 * jw(0) + jw(w_h - w_c) + 3 * jw(w_h) + 6 * jw(w_c) + 6 * jw(w_h + w_c))
+    assert r2[-1] > pair
+
+
+def test_no_minority_without_residual_protons():
+    rates = relaxation_rates(15e-9, proton_mhz=600.0, labeling=load_scheme("2h13c15n", deuteration=1.0))
+    assert not rates.minority
+    with pytest.raises(BackboneError):
+        rates.coherence("HAx")

@@ -237,12 +237,25 @@ def test_trosy_wins_for_large_deuterated_proteins_at_high_field():
 # ---------------------------------------------------------------------------------------------------------
 
 
-def test_cbcaconh_infeasible_when_perdeuterated(chain):
-    # CBCA(CO)NH starts on HA/HB; perdeuteration removes them (Grzesiek & Bax, JACS 114, 6291, 1992).
-    s = load_scheme("2h13c15n")
+def test_cbcaconh_infeasible_when_fully_deuterated(chain):
+    # CBCA(CO)NH starts on HA/HB; full deuteration removes them (Grzesiek & Bax, JACS 114, 6291, 1992).
+    s = load_scheme("2h13c15n", deuteration=1.0)
     w = walk("CBCA(CO)NH", chain, 3, s, relaxation_rates(15e-9, proton_mhz=800, labeling=s))
     assert not w.feasible and "2H" in w.reason and "HA" in w.reason
     assert all(float(p.throughput) == 0.0 for p in w.peaks)
+
+
+@pytest.mark.parametrize("level", [0.5, 0.7, 0.98])
+def test_cbcaconh_scaled_by_residual_protons(chain, level):
+    # Fractional deuteration: only molecules with 1H at HA/HB start the walk, so the start amplitude is the
+    # 1H fraction of the site (common practice: fractionally deuterated samples for CBCA(CO)NH-type
+    # experiments, Nietlispach et al., J. Am. Chem. Soc. 118, 407, 1996, from memory). The relaxation of the
+    # rest is the same deuterated sample's, so throughput / fraction does not depend on a start factor.
+    s = load_scheme("2h13c15n", deuteration=level)
+    rates = relaxation_rates(15e-9, proton_mhz=800, labeling=s)
+    w = walk("CBCA(CO)NH", chain, 3, s, rates)
+    assert w.feasible
+    assert all(0 < abs(float(p.throughput)) <= 1 - level + 1e-12 for p in w.peaks)
 
 
 def test_natural_abundance_carbon_is_reported(chain):

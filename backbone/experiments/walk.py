@@ -327,9 +327,9 @@ def _resolve_peak(model: ExperimentModel, G, residue: int, scheme, peak) -> Reso
         factor = 1.0
     else:
         site = G.nodes[start]["site"]
-        if not scheme.is_labeled(site):
-            return fail(f"start proton {peak.start.label}: {_unlabeled_reason(site, scheme)}")
         factor = float(scheme.fraction(site))
+        if factor <= 0.0:  # fractional deuteration scales the start; full deuteration leaves nothing to start on
+            return fail(f"start proton {peak.start.label}: {_unlabeled_reason(site, scheme)}")
     for node in dict.fromkeys(nodes):
         if G.nodes[node]["site"] in _HEAVY:
             factor *= float(scheme.fraction(G.nodes[node]["site"]))

@@ -372,6 +372,11 @@ class RateSet:
         The labeled side-chain nuclei the coherences need (``"HB"``, :data:`~backbone.relaxation.environment.
         SIDE_CHAIN_NUCLEI`) with ``R1`` (non-selective), ``R1_selective``, ``R1_nonselective``, ``R2``; kept out of
         :attr:`nuclei` (and of :meth:`as_dict`), which hold the backbone nuclei.
+    minority : mapping nucleus → mapping rate name → array
+        Carbon-bound protons (HA, HB) that a fractionally deuterated scheme keeps only as a minority (1H fraction
+        above 0 but not above 1/2): the rates of the 1H-bearing molecules, so that a walk starting on those
+        protons can be scaled by the fraction instead of dropped. The nucleus stays in :attr:`unlabeled`; the
+        coherences that have it as their transverse spin (``HAx``, ``2HAxCAz``, ``HBx``, ``2HBxCBz``) are given.
     """
 
     tau_c: np.ndarray
@@ -383,6 +388,7 @@ class RateSet:
     coherences: Mapping[str, np.ndarray]
     unlabeled: Mapping[str, float]
     side_chain: Mapping[str, Mapping[str, np.ndarray]] = field(default_factory=lambda: MappingProxyType({}))
+    minority: Mapping[str, Mapping[str, np.ndarray]] = field(default_factory=lambda: MappingProxyType({}))
 
     @property
     def shape(self) -> tuple[int, ...]:
@@ -520,6 +526,10 @@ def _mix(labeling, site: str) -> tuple[tuple[str, float], ...]:
     if element == "H":
         return (("1H", f), ("2H", 1.0 - f))
     return ((_MAGNETIC[element], f),)
+
+
+#: Carbon-bound protons whose 1H-bearing minority is kept under fractional deuteration (RateSet.minority).
+_MINORITY_PROTONS = ("HA", "HB")
 
 
 def _is_present(labeling, nucleus: str) -> bool:
@@ -683,6 +693,11 @@ def relaxation_rates(
 
     present = {n: _is_present(labeling, n) for n in _ENGINE_NUCLEI}
     unlabeled = {n: _fraction(labeling, NUCLEUS_SITE[n]) for n in NUCLEI if not present[n]}
+    # Carbon-bound protons kept by a fractionally deuterated scheme: rates of the 1H-bearing minority.
+    minority = {
+        n: not present[n] and _ISOTOPE[n] == "1H" and n in _MINORITY_PROTONS and _fraction(labeling, NUCLEUS_SITE[n]) > 0
+        for n in _ENGINE_NUCLEI
+    }
 
     b0 = b0_from_proton_mhz(mhz_a)
     omega = {iso: GAMMA[iso].value * b0 for iso in ("1H", "2H", "13C", "15N")}
@@ -696,7 +711,7 @@ def relaxation_rates(
 
     auto: dict[str, dict[str, np.ndarray]] = {}
     for nucleus in _ENGINE_NUCLEI:
-        if not present[nucleus]:
+        if not (present[nucleus] or minority[nucleus]):
             continue
         iso = _ISOTOPE[nucleus]
         weights: dict[str, float] = {}  # Σ count·fraction·r⁻⁶ [m⁻⁶] per partner isotope
@@ -778,12 +793,16 @@ def relaxation_rates(
 
     nuclei_out: dict[str, dict[str, np.ndarray]] = {}
     side_out: dict[str, dict[str, np.ndarray]] = {}
+    minority_out: dict[str, dict[str, np.ndarray]] = {}
     for nucleus, a in auto.items():
         rates = {"R1": a["r1_ns"] if _ISOTOPE[nucleus] == "1H" else a["r1_sel"], "R2": a["r2"] + rex_of(nucleus)}
         if _ISOTOPE[nucleus] == "1H":
             rates["R1_selective"] = a["r1_sel"]
             rates["R1_nonselective"] = a["r1_ns"]
-        (nuclei_out if nucleus in NUCLEI else side_out)[nucleus] = rates
+        if minority[nucleus]:
+            minority_out[nucleus] = rates
+        else:
+            (nuclei_out if nucleus in NUCLEI else side_out)[nucleus] = rates
     if present["H"]:
         x = _methyl_fraction(labeling) if bath.methyl_fraction is None else bath.methyl_fraction
         r1_ns = auto["H"]["r1_ns"]
@@ -845,10 +864,9 @@ def relaxation_rates(
         if present[s] and "Nx_hdec" in coh:
             coh[name] = anti_phase_from(coh["Nx_hdec"], i, s)
             coh[name + "_trosy"] = anti_phase_from(coh["N_trosy"], i, s)
-    if present["HA"]:
-        coh["HAx"] = nuclei_out["HA"]["R2"]
-    if present["HB"]:
-        coh["HBx"] = side_out["HB"]["R2"]
+    for h in ("HA", "HB"):
+        if present[h] or minority[h]:
+            coh[h + "x"] = (nuclei_out.get(h) or side_out.get(h) or minority_out[h])["R2"]
     for name, (i, s) in {
         "2HAxCAz": ("HA", "CA"),
         "2CAxHAz": ("CA", "HA"),
@@ -858,7 +876,7 @@ def relaxation_rates(
         "2CBxCAz": ("CB", "CA"),
         "2CxCAz": ("C", "CA"),
     }.items():
-        if present[i] and present[s]:
+        if (present[i] or (minority[i] and i in ("HA", "HB"))) and present[s]:
             coh[name] = anti_phase(i, s)
     if present["CA"]:
         coh["CAx_hdec"] = decoupled("CA", "HA", coh["CAx"])
@@ -879,4 +897,5 @@ def relaxation_rates(
         coherences=freeze(ordered_coh),
         unlabeled=MappingProxyType(unlabeled),
         side_chain=MappingProxyType({n: freeze(r) for n, r in side_out.items()}),
+        minority=MappingProxyType({n: freeze(r) for n, r in minority_out.items()}),
     )
