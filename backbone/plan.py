@@ -33,7 +33,7 @@ import numpy as np
 
 from backbone.errors import BackboneError
 
-__all__ = ["PeakPlan", "StepPlan", "ExperimentPlan", "PlanResult", "plan"]
+__all__ = ["PeakPlan", "StepPlan", "ExperimentPlan", "PlanResult", "plan", "plan_matrix"]
 
 _REFERENCE = "HSQC"
 
@@ -442,3 +442,102 @@ def plan(
             )
         )
     return PlanResult(tuple(plans), shape)
+
+
+def plan_matrix(
+    *,
+    tau_c_ns,
+    field_mhz,
+    labelings=None,
+    experiments=None,
+    trosy=False,
+    objective=None,
+    s2=1.0,
+    tau_e_ns=0.0,
+):
+    """The planning matrix: every experiment × labeling scheme × field × τc, as one tidy table.
+
+    Each labeling is planned once over the whole field × τc grid (:func:`plan`, vectorized), so the result of
+    every row is the one :func:`plan` gives for that single condition. ``field_mhz`` and ``tau_c_ns`` hold the
+    values given, exactly, so rows can be selected by them.
+
+    Parameters
+    ----------
+    tau_c_ns : 1-D array [ns]
+        Rotational correlation times.
+    field_mhz : 1-D array [MHz]
+        Fields as the 1H Larmor frequency.
+    labelings : sequence of scheme ids, paths or LabelingScheme, optional
+        Default every registered scheme (:func:`backbone.labeling.registered_schemes`).
+    experiments, trosy, objective, s2, tau_e_ns
+        As in :func:`plan`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per (labeling, experiment, field, τc), τc fastest. Columns: ``labeling``, ``experiment``,
+        ``trosy`` (the version used at that condition), ``field_mhz``, ``tau_c_ns``, ``feasible``, ``objective``
+        (what the delays maximize), ``objective_throughput`` and ``textbook_objective_throughput`` (the objective
+        at the optimized and at the textbook delays; 0 when infeasible), ``gain`` (their ratio; NaN when
+        infeasible), ``relative_sensitivity`` (against the HSQC, 0 when infeasible, NaN when the HSQC is),
+        then one column ``delay_<name>_s`` [s] per named delay of any planned experiment, holding the optimized
+        delay (NaN for experiments without that delay or when infeasible). Per-peak and per-step detail is in
+        :meth:`PlanResult.to_frame` of a :func:`plan` for the condition of interest. pandas is imported here.
+    """
+    import pandas as pd
+
+    from backbone.labeling import LabelingScheme, registered_schemes
+
+    tc = np.asarray(tau_c_ns, dtype=float)
+    mhz = np.asarray(field_mhz, dtype=float)
+    for name, arr in (("tau_c_ns", tc), ("field_mhz", mhz)):
+        if arr.ndim != 1 or arr.size == 0:
+            raise BackboneError(f"plan_matrix: {name} must be a non-empty 1-D array, got shape {arr.shape}")
+    schemes = list(registered_schemes()) if labelings is None else list(labelings)
+    if not schemes:
+        raise BackboneError("plan_matrix: labelings must name at least one labeling scheme")
+    shape = (mhz.size, tc.size)
+    n = mhz.size * tc.size
+    frames = []
+    delay_columns: dict[str, None] = {}
+    for lab in schemes:
+        result = plan(
+            tau_c_ns=tc[None, :],
+            field_mhz=mhz[:, None],
+            labeling=lab,
+            experiments=experiments,
+            trosy=trosy,
+            objective=objective,
+            s2=s2,
+            tau_e_ns=tau_e_ns,
+        )
+        lab_id = lab.id if isinstance(lab, LabelingScheme) else None
+        for e in result.experiments:
+
+            def flat(x, dtype=float):
+                return np.broadcast_to(np.asarray(x, dtype=dtype), shape).ravel()
+
+            cols = {
+                "labeling": np.full(n, lab_id or e.labeling, dtype=object),
+                "experiment": np.full(n, e.name, dtype=object),
+                "trosy": flat(e.trosy, bool),
+                "field_mhz": flat(mhz[:, None]),
+                "tau_c_ns": flat(tc[None, :]),
+                "feasible": np.full(n, bool(e.feasible)),
+                "objective": np.full(n, e.objective, dtype=object),
+                "objective_throughput": flat(e.objective_value),
+                "textbook_objective_throughput": flat(e.textbook_objective_value),
+                "gain": flat(e.gain) if e.feasible else np.full(n, np.nan),
+                "relative_sensitivity": flat(e.relative_sensitivity) if e.feasible else np.zeros(n),
+            }
+            for d, v in e.delays.items():
+                column = f"delay_{d}_s"
+                delay_columns[column] = None
+                cols[column] = flat(v)
+            frames.append(pd.DataFrame(cols))
+    table = pd.concat(frames, ignore_index=True)
+    for column in delay_columns:
+        if column not in table:
+            table[column] = np.nan
+    fixed = [c for c in table.columns if not c.startswith("delay_")]
+    return table[fixed + list(delay_columns)]

@@ -46,7 +46,8 @@ import numpy as np
 from backbone.errors import BackboneError
 from backbone.experiments.model import OBJECTIVES
 from backbone.experiments.walk import NoRelaxation, ResolvedWalk, _mode, _rate, segment_amplitude
-from backbone.transfer import optimal_delay, optimal_delays, optimal_inept_delay, optimal_transfer_delay
+from backbone.transfer import optimal_delay, optimal_inept_delay, optimal_transfer_delay
+from backbone.transfer.optimum import _weakest_product_optimum
 
 __all__ = ["DelayChoice", "objective_value", "check_objective", "delay_bounds", "optimize_delays", "textbook_delays"]
 
@@ -264,7 +265,13 @@ def optimize_delays(
             delays[names[0]] = optimal_delay(joint_func, bounds[0]).tau
             methods[names[0]] = "alone (numerical, weakest peak)"
         else:
-            res = optimal_delays(joint_func, bounds)
+            # The objective is min_k(fixed_k × ∏_d factor_k,d(τ_d)): the separable form of optimal_delays
+            # gives the same result with each factor evaluated per delay, not at every joint point.
+            def axis_factors(a, tau):
+                cache: dict = {}
+                return [factor(p, names[a], tau, cache) for p in users]
+
+            res = _weakest_product_optimum(axis_factors, [fixed[p.label] for p in users], bounds, shape)
             for d, tau in zip(names, res.taus):
                 delays[d] = tau
                 methods[d] = "joint with " + ", ".join(n for n in names if n != d) + " (numerical, weakest peak)"

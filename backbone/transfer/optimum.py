@@ -225,15 +225,21 @@ def optimal_delay(func, bounds, *, n_grid=257, rtol=1e-9, atol=1e-12, maximize=T
     d = a + _INV_PHI * (b - a)
     fc, fd = f(c), f(d)
     for _ in range(int(max_iter)):
-        if np.all(b - a <= rtol * np.maximum(np.abs(a), np.abs(b)) + atol):
+        # Conditions whose bracket is small enough stay as they are, so every condition's result is the one
+        # it would have alone, whatever else is in the batch.
+        active = b - a > rtol * np.maximum(np.abs(a), np.abs(b)) + atol
+        if not np.any(active):
             break
         left = fc >= fd  # the maximum lies in [a, d]
-        a = np.where(left, a, c)
-        b = np.where(left, d, b)
-        new = np.where(left, b - _INV_PHI * (b - a), a + _INV_PHI * (b - a))
+        a1 = np.where(left, a, c)
+        b1 = np.where(left, d, b)
+        new = np.where(left, b1 - _INV_PHI * (b1 - a1), a1 + _INV_PHI * (b1 - a1))
         f_new = f(new)
-        c, d = np.where(left, new, d), np.where(left, c, new)
-        fc, fd = np.where(left, f_new, fd), np.where(left, fc, f_new)
+        c1, d1 = np.where(left, new, d), np.where(left, c, new)
+        fc1, fd1 = np.where(left, f_new, fd), np.where(left, fc, f_new)
+        a, b = np.where(active, a1, a), np.where(active, b1, b)
+        c, d = np.where(active, c1, c), np.where(active, d1, d)
+        fc, fd = np.where(active, fc1, fc), np.where(active, fd1, fd)
     pick_c = fc >= fd
     tau = np.where(pick_c, c, d)
     best = np.where(pick_c, fc, fd)
@@ -277,12 +283,30 @@ def optimal_delays(func, bounds, *, n_grid=None, rtol=1e-7, atol=1e-12, maximize
     shape = np.broadcast_shapes(
         f(*(0.5 * (lo + hi) for lo, hi in pairs)).shape, *(lo.shape for lo, _ in pairs), *(hi.shape for _, hi in pairs)
     )
-    nd = len(shape)
     lo = np.stack([np.broadcast_to(p[0], shape) for p in pairs]).astype(float)
     hi = np.stack([np.broadcast_to(p[1], shape) for p in pairs]).astype(float)
 
+    def stencil(c, hc, off_b):
+        pts = c[None] + off_b * hc[None]
+        return f(*(pts[:, k] for k in range(d)))
+
+    x, fx = _joint_search(lambda lo, hi, n: _grid_search(f, lo, hi, n), stencil, lambda x: f(*x), lo, hi, n, rtol, atol, max_iter)
+    return JointOptimum(tuple(x[k] for k in range(d)), fx if maximize else -fx)
+
+
+def _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter):
+    """The n-D search of :func:`optimal_delays` on (d, *shape) bounds, the objective given as three evaluators:
+    ``grid(lo, hi, n)`` → (flat grid index, value) like :func:`_grid_search`, ``stencil(c, hc, off_b)`` → values
+    at ``c + off_b·hc`` (3^d, *shape), ``point(x)`` → values at x (d, *shape). Maximizes; returns (x, value).
+
+    A condition whose stencil spacing is small enough keeps its point and spacing while others go on, so its
+    result is the one it would have alone.
+    """
+    d, shape = lo.shape[0], lo.shape[1:]
+    nd = len(shape)
+
     # Joint grid search.
-    flat, fx = _grid_search(f, lo, hi, n)
+    flat, fx = grid(lo, hi, n)
     h = (hi - lo) / (n - 1)
     x = lo + h * np.stack(np.unravel_index(flat, (n,) * d)).reshape((d,) + shape)
 
@@ -301,12 +325,12 @@ def optimal_delays(func, bounds, *, n_grid=None, rtol=1e-7, atol=1e-12, maximize
     eye = np.eye(d)
     off_b = offsets.reshape(offsets.shape + (1,) * nd)
     for _ in range(int(max_iter)):
-        if np.all(h <= rtol * np.abs(x) + atol):
+        active = ~np.all(h <= rtol * np.abs(x) + atol, axis=0)
+        if not np.any(active):
             break
         hc = np.minimum(h, 0.5 * (hi - lo))
         c = np.clip(x, lo + hc, hi - hc)
-        pts = c[None] + off_b * hc[None]
-        fv = f(*(pts[:, k] for k in range(d)))
+        fv = stencil(c, hc, off_b)
         f0 = fv[center]
         grad = np.empty((d,) + shape)
         hess = np.empty((d, d) + shape)
@@ -333,7 +357,7 @@ def optimal_delays(func, bounds, *, n_grid=None, rtol=1e-7, atol=1e-12, maximize
         reach = np.max(np.abs(newton) / hc, axis=0)
         scale = np.where(reach > 2.0, 2.0 / np.where(reach > 2.0, reach, 1.0), 1.0)
         xn = np.clip(c + newton * scale, lo, hi)
-        fn = f(*xn)
+        fn = point(xn)
         j = np.argmax(fv, axis=0)
         fs = np.take_along_axis(fv, j[None], 0)[0]
         xs = c + np.moveaxis(offsets[j], -1, 0) * hc
@@ -349,6 +373,74 @@ def optimal_delays(func, bounds, *, n_grid=None, rtol=1e-7, atol=1e-12, maximize
         jumped = np.any(np.abs(x_new - x) > 0.5 * hc, axis=0)
         outward = ((choice == 1) & (j != center)) | ((choice == 2) & (scale < 1.0))
         further = outward & jumped & gained
-        x, fx = x_new, f_new
-        h = np.where(further[None], hc, 0.5 * hc)
-    return JointOptimum(tuple(x[k] for k in range(d)), fx if maximize else -fx)
+        x = np.where(active[None], x_new, x)
+        fx = np.where(active, f_new, fx)
+        h = np.where(active[None], np.where(further[None], hc, 0.5 * hc), h)
+    return x, fx
+
+
+def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, rtol=1e-7, atol=1e-12, max_iter=100):
+    """:func:`optimal_delays` (default grid, maximizing) of the weakest of products of per-delay factors.
+
+    The objective is min over k of ``fixed[k] · ∏_d axis_factors(d, τ_d)[k]`` (products in that order, the
+    minimum taken over k in order), the form of a "weakest peak" objective whose peak amplitudes are products of
+    one factor per delay. ``axis_factors(d, tau)`` returns the list over k of the factors of delay d at ``tau``
+    (any leading axes before the condition shape ``shape``). Because the objective separates, the joint grid
+    and every stencil need each factor only at n (grid) or 3 (stencil) values per delay instead of at all n^d
+    or 3^d points; the values, and therefore the result, are those of :func:`optimal_delays` with the same
+    objective written as one function. For callers that validated their inputs (bounds as given, no checks).
+    """
+    d = len(bounds)
+    n = _JOINT_GRID[d]
+    nd = len(shape)
+    pad = (1,) * nd
+    lo = np.stack([np.broadcast_to(np.asarray(b[0], dtype=float), shape) for b in bounds]).astype(float)
+    hi = np.stack([np.broadcast_to(np.asarray(b[1], dtype=float), shape) for b in bounds]).astype(float)
+
+    def combine(per_axis, sizes):
+        """Objective on the outer grid of the per-delay values, flattened in C order: (∏ sizes, *shape);
+        per_axis[a][k] has shape (sizes[a], *shape) or broadcasts to it."""
+        out = None
+        for k in range(len(fixed)):
+            v = np.asarray(fixed[k], dtype=float)
+            for a in range(d):
+                g = np.broadcast_to(per_axis[a][k], (sizes[a],) + shape)
+                v = v * g.reshape((1,) * a + (sizes[a],) + (1,) * (d - 1 - a) + shape)
+            out = v if out is None else np.minimum(out, v)
+        out = np.broadcast_to(out, tuple(sizes) + shape).reshape((math.prod(sizes),) + shape)
+        return np.where(np.isnan(out), -np.inf, out)
+
+    def grid(lo, hi, n):
+        u = np.linspace(0.0, 1.0, n).reshape((n,) + pad)
+        per_axis = [axis_factors(a, lo[a] + (hi[a] - lo[a]) * u) for a in range(d)]
+        # Blocks of rows of the first delay bound the memory for large condition grids (as _grid_search).
+        rest = n ** (d - 1)
+        rows = max(1, _BLOCK_ELEMENTS // (rest * max(1, math.prod(shape))))
+        best_val = np.full(shape, -np.inf)
+        best_idx = np.zeros(shape, dtype=np.intp)
+        any_finite = np.zeros(shape, dtype=bool)
+        for start in range(0, n, rows):
+            stop = min(n, start + rows)
+            first = [np.broadcast_to(g, (n,) + shape)[start:stop] for g in per_axis[0]]
+            vals = combine([first] + per_axis[1:], (stop - start,) + (n,) * (d - 1))
+            any_finite |= np.any(np.isfinite(vals), axis=0)
+            j = np.argmax(vals, axis=0)
+            v = np.take_along_axis(vals, j[None], 0)[0]
+            better = v > best_val
+            best_val = np.where(better, v, best_val)
+            best_idx = np.where(better, start * rest + j, best_idx)
+        if not np.all(any_finite):
+            raise BackboneError("func returned no finite value anywhere within the bounds for some condition")
+        return best_idx, best_val
+
+    steps = np.array([-1.0, 0.0, 1.0]).reshape((3,) + pad)
+
+    def stencil(c, hc, off_b):
+        return combine([axis_factors(a, c[a][None] + steps * hc[a][None]) for a in range(d)], (3,) * d)
+
+    def point(x):
+        per_axis = [[np.asarray(v)[None] for v in axis_factors(a, x[a])] for a in range(d)]
+        return combine(per_axis, (1,) * d)[0]
+
+    x, fx = _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter)
+    return JointOptimum(tuple(x[k] for k in range(d)), fx)

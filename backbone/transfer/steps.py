@@ -148,17 +148,23 @@ def _kernel_scaled(t, w, ra, rb):
     q = w * w - delta * delta
     osc = q >= 0.0
     omega = np.sqrt(np.where(osc, q, 0.0))
-    kappa = np.sqrt(np.where(osc, 0.0, -q))
     # Oscillatory branch: e^(−Rm t) [cos(Ωt), t sinc(Ωt)].
-    c_osc = np.cos(omega * t)
-    s_osc = t * np.sinc(omega * t / np.pi)
-    # Overdamped branch, relative to e^((κ − Rm) t): cosh(κt) e^(−κt) = (1 + e^(−2κt))/2 and
-    # sinh(κt) e^(−κt)/κ = t (1 − e^(−2κt))/(2κt); decaying exponentials only.
-    c_hyp = 0.5 * (1.0 + np.exp(-2.0 * kappa * t))
-    s_hyp = t * _one_minus_exp_ratio(2.0 * kappa * t)
-    c = np.where(osc, c_osc, c_hyp)
-    s = np.where(osc, s_osc, s_hyp)
-    log_scale = (np.where(osc, 0.0, kappa) - rm) * t
+    c = np.cos(omega * t)
+    s = t * np.sinc(omega * t / np.pi)
+    log_scale = -rm * t
+    hyp = ~osc
+    if np.any(hyp):
+        # Overdamped branch, relative to e^((κ − Rm) t): cosh(κt) e^(−κt) = (1 + e^(−2κt))/2 and
+        # sinh(κt) e^(−κt)/κ = t (1 − e^(−2κt))/(2κt); decaying exponentials only. Evaluated only where
+        # it applies (elementwise, so the values are those of the whole-array formula).
+        kappa = np.sqrt(-q[hyp])
+        th = t[hyp]
+        c = np.array(c, copy=True)
+        s = np.array(s, copy=True)
+        log_scale = np.array(log_scale, copy=True)
+        c[hyp] = 0.5 * (1.0 + np.exp(-2.0 * kappa * th))
+        s[hyp] = th * _one_minus_exp_ratio(2.0 * kappa * th)
+        log_scale[hyp] = (kappa - rm[hyp]) * th
     return c - delta * s, w * s, log_scale
 
 
