@@ -51,9 +51,9 @@ TROSY version (an "HSQC" recorded as TROSY) is walked as the registered TROSY-on
 dimensions and start (the 2D TROSY).
 
 High-power duty cycle (per scan, along the limiting peak's pathway): the summed duration of every period that
-decouples 1H or 13C (a decoupled coupling whose partner of the transverse spin is a proton or a carbon; the
-model lists these, :attr:`backbone.experiments.Step.decoupled`), counted whatever the labeling, plus the
-acquisition when it is heteronuclear-decoupled (15N decoupling). Coupling periods last their (optimized)
+decouples protons (a decoupled coupling whose partner of the transverse spin is a proton; the model lists these,
+:attr:`backbone.experiments.Step.decoupled`), counted whatever the labeling. Band-selective carbon pulses and the
+low-power 15N decoupling during acquisition are not counted (common practice). Coupling periods last their (optimized)
 delay, a real-time evolution its t_max (the longest increment), a semi-constant-time evolution its excess over
 the host period (counted when the host decouples). The scan here is recycle + sequence + acquisition. Compared with ``goals.high_power_duty_limit``
 (default :data:`backbone.sensitivity.DEFAULT_DUTY_LIMIT`), with the caution text of
@@ -591,18 +591,20 @@ def _transverse(step) -> set[str]:
 
 
 def _decouples_h_or_c(step) -> bool:
-    """True when a period decouples 1H or 13C (or, for the acquisition, any heteronucleus)."""
-    if not step.decoupled:
+    """True when a period decouples protons (broadband 1H decoupling, the high-power part of these sequences).
+
+    Carbon couplings removed by band-selective 180° pulses and the low-power 15N decoupling during acquisition
+    (about 1 kHz, common practice) are not counted as high-power time.
+    """
+    if not step.decoupled or step.kind == "detect":
         return False
-    if step.kind == "detect":
-        return True
     transverse = _transverse(step)
     for kind in step.decoupled:
         m = _COUPLING_RE.match(kind)
         if m is None:
             continue
         partners = {m.group(1), m.group(2)} - transverse
-        if partners & set(_PROTONS + _CARBONS):
+        if partners & set(_PROTONS):
             return True
     return False
 

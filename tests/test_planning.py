@@ -119,8 +119,8 @@ def test_minimum_time_is_increments_times_quadrature_times_scans_times_scan():
     # (gradient selection with a two-step cycle, common practice) · (recycle + acquisition).
     row = _plan("fld9-domain").get("HNCA")
     mhz, recycle, acq = 600.0, 1.2, 0.080  # scenario recycle_delay_s; HNCA model t_acq_ms = 80
-    n_ca = math.ceil(round((1 / 35) * 30.0 * XI_13C * mhz, 9))  # CA: 35 Hz -> t_max 1/35 s; 30 ppm window
-    n_n = math.ceil(round((1 / 25) * 32.0 * XI_15N * mhz, 9))  # N: 25 Hz; 32 ppm window
+    n_ca = math.ceil(round((1 / 120) * 30.0 * XI_13C * mhz, 9))  # CA: 120 Hz -> t_max 1/120 s; 30 ppm window
+    n_n = math.ceil(round((1 / 40) * 32.0 * XI_15N * mhz, 9))  # N: 40 Hz; 32 ppm window
     assert sorted(row.increments) == sorted([n_ca, n_n])
     assert_allclose(row.minimum_time_s, n_ca * n_n * 2**2 * 2 * (recycle + acq), rtol=1e-12)
     assert row.limited_by == ("sampling" if row.minimum_time_s >= row.sensitivity_time_s else "sensitivity")
@@ -187,14 +187,16 @@ def test_cbeta_falls_behind_calpha_as_size_grows():
 
 
 def test_duty_cycle_counts_decoupled_periods_and_warns():
-    # Counted (module docstring): periods decoupling 1H or 13C at their delays, real-time evolution to t_max,
-    # the semi-constant-time excess, and the 15N-decoupled acquisition; scan = recycle + sequence + acquisition.
+    # Counted (module docstring): periods under broadband 1H decoupling at their delays and the
+    # semi-constant-time excess of an evolution inside such a period; not band-selective carbon pulses nor the
+    # low-power 15N decoupling of the acquisition (common practice). Scan = recycle + sequence + acquisition.
+    # HNCO (models/experiments/hnco.toml): N->C' and C'->N decouple 1J(N,H); the C' shift decouples carbons only.
     from backbone.sensitivity import duty_cycle_warning
 
     row = _plan("fld9-domain").get("HNCO")
     t_nc = row.plan.delays["T_NC"]
-    t_c, t_n, acq = 1 / 20, 1 / 25, 0.080  # C' 20 Hz, N 25 Hz, acquisition 80 ms
-    hp = 2 * t_nc + t_c + max(0.0, t_n - t_nc) + acq  # N->C', C' shift, C'->N, N excess, acquisition
+    t_n, acq = 1 / _scenario("fld9-domain").goals.resolution_hz["N"], 0.080  # N t_max from the scenario's resolution, acquisition 80 ms
+    hp = 2 * t_nc + max(0.0, t_n - t_nc)  # N->C', C'->N, N excess
     assert_allclose(row.high_power_s, hp, rtol=1e-9)
     assert_allclose(row.duty_cycle, hp / (1.2 + row.sequence_s + acq), rtol=1e-9)
     assert row.duty_warning == duty_cycle_warning(row.duty_cycle, 0.10)

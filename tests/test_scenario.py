@@ -182,7 +182,7 @@ def test_annotated_example_values():
     assert s.sample.volume_ul == 300
     assert s.candidates.labeling[1] == LabelingChoice("2h13c15n", 0.9)
     assert s.candidates.trosy == "auto"
-    assert dict(s.goals.resolution_hz) == {"N": 25, "C": 20, "CA": 35, "CB": 70, "HA": 40}
+    assert dict(s.goals.resolution_hz) == {"N": 40, "C": 50, "CA": 120, "CB": 170, "HA": 40}
     assert s.goals.high_power_duty_limit == 0.1
     assert s.spectrometer.calibration.concentration_mm == 1.0
 
