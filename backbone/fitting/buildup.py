@@ -41,14 +41,15 @@ Fitting, uncertainties and statuses
 residue). Starting values come from vectorized variable-projection scans (``scale`` is linear, so for each
 trial rate and J it has a closed-form weighted least-squares value): the rate on a logarithmic grid, then,
 when J is free, J on a grid of 0.5–1.5 × ``j_hz`` and the rate once more. The default engine fits all
-residues at once with a Levenberg–Marquardt iteration vectorized over residues (Marquardt 1963, J. SIAM 11,
-431; bounds by projection; central-difference derivatives of the vectorized model), and refits those it does not converge one by one with lmfit
-(:class:`BuildupModel`, MINPACK ``leastsq``); ``engine="lmfit"`` fits every residue with lmfit.
+residues at once with the batched Levenberg–Marquardt iteration of :func:`backbone.fitting.series.fit_batch`
+(Marquardt 1963, J. SIAM 11, 431; bounds by projection) through :func:`buildup_batch_model`
+(central-difference derivatives of the vectorized model), and refits those it does not converge one by one
+with lmfit (:class:`BuildupModel`, MINPACK ``leastsq``); ``engine="lmfit"`` fits every residue with lmfit.
 
 Errors are the square roots of the diagonal of (JᵀWJ)⁻¹ at the optimum, J the derivatives of the weighted
 model (the given σ taken as absolute; without an error column scaled by χ²/(n − p)), for either engine, or
 Monte Carlo / residual-bootstrap standard deviations of ``n_draws`` refits, as in ``fit_decays``. The status
-rules are those of ``fit_decays`` (its status logic is written inline there, so it is mirrored here):
+rules are those of ``fit_decays`` (one implementation, :mod:`backbone.fitting._shared`):
 ``too-few-points`` / ``bad-data`` below p + 1 usable points (without / with excluded points); ``failed`` for a
 constant series, no convergence or a singular covariance (parameters NaN); ``poorly-determined`` for a
 relative error above 50 % of ``scale``, ``rate`` or a free ``j_hz``, a rate at its lower bound, or most
@@ -60,25 +61,29 @@ from __future__ import annotations
 
 import math
 import warnings
-from pathlib import Path
 
 import lmfit
 import numpy as np
-import pandas as pd
 from lmfit.models import update_param_vals
 
 from backbone.errors import BackboneError
-from backbone.fitting.data import FLAG_NONPOSITIVE_INTENSITY, DecayData, decays_from_frame, read_decays
-from backbone.fitting.decay import LEASTSQ_PRECISE
-from backbone.fitting.series import (
-    ENGINES,
-    ERROR_METHODS,
-    MAX_RELATIVE_ERROR,
-    N_DRAWS_RANGE,
+from backbone.fitting._shared import (
     STATUSES,
-    FitResult,
-    _covariance,
+    Progress,
+    as_decay_data,
+    check_fit_options,
+    note_exclusions,
+    pad_groups,
+    postfit_statuses,
+    prefit_statuses,
+    resampling_noise,
+    result_table,
+    uncertainty_text,
+    usable_mask,
 )
+from backbone.fitting.data import FLAG_NONPOSITIVE_INTENSITY
+from backbone.fitting.decay import LEASTSQ_PRECISE
+from backbone.fitting.series import BatchModel, FitResult, covariance_errors, fit_batch
 from backbone.transfer.steps import transfer_amplitudes
 
 __all__ = [
@@ -87,6 +92,7 @@ __all__ = [
     "buildup",
     "buildup_jacobian",
     "initial_buildup_values",
+    "buildup_batch_model",
     "BuildupModel",
     "fit_buildups",
 ]
@@ -363,101 +369,37 @@ class BuildupModel(lmfit.Model):
 
 
 # ---------------------------------------------------------------------------------------------------------
-# batched Levenberg-Marquardt for build-ups
+# the model for the batched engine
 # ---------------------------------------------------------------------------------------------------------
-def _fit_rows(t, y, w, p0, free, lower, ctx, *, max_iter=200):
-    """Weighted least squares for many rows at once; returns (params, converged, chi2).
+def buildup_batch_model(*, j_hz, fit_j=False, rate_difference=0.0, passive_hz=()) -> BatchModel:
+    """The build-up model for :func:`backbone.fitting.series.fit_batch`.
 
-    Minimizes Σ w²(y − f)² over the ``free`` parameters with Marquardt's diagonally scaled damping; parameters
-    are projected onto ``params ≥ lower`` after each step. Convergence: the cosine between the residual and each
-    free Jacobian column below 1e-10 (MINPACK's gtol), or an accepted step that moves every parameter by less
-    than 1e-10 of its size (|value| + the σ-like scale |r|/|J_col|) while χ² changes by less than 1e-14 of itself,
-    or a projected step that does not move at all. A row whose damping grows past 1e12 counts as converged
-    only if that cosine is below 1e-6.
+    Parameters are (scale, rate) with J fixed at ``j_hz``, or (scale, rate, j_hz) with ``fit_j``; the rate is
+    bounded below by max(0, −rate_difference) and J by 0. Values and derivatives from :func:`buildup_jacobian`;
+    starting values from :func:`initial_buildup_values`.
     """
-    p = np.array(p0, dtype=float)
-    n_rows = p.shape[0]
-    q = int(np.sum(free))
-    idx = np.flatnonzero(free)
+    j0 = abs(float(j_hz))
+    delta = float(rate_difference)
+    passive = tuple(passive_hz)
+    lower_rate = max(0.0, -delta)
+    idx = [0, 1, 2] if fit_j else [0, 1]
 
-    def state(rows, params):
-        f, jac = buildup_jacobian(t[rows], params, lower_rate=lower[1], **ctx)
-        r = w[rows] * (y[rows] - f)
-        return r, w[rows][..., None] * jac[..., idx], (r * r).sum(-1)
+    def jac(t, p):
+        p = np.atleast_2d(p)
+        full = p if fit_j else np.concatenate([p, np.full((p.shape[0], 1), j0)], axis=-1)
+        f, d = buildup_jacobian(t, full, rate_difference=delta, passive_hz=passive, lower_rate=lower_rate)
+        return f, d[..., idx]
 
-    converged = np.zeros(n_rows, dtype=bool)
-    lam = np.full(n_rows, 1e-3)
-    active = np.flatnonzero(np.all(np.isfinite(p), axis=-1))
-    chi2 = np.full(n_rows, np.nan)
-    with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
-        res = np.zeros_like(y)
-        jws = np.zeros(y.shape + (q,))
-        if active.size:
-            res[active], jws[active], chi2[active] = state(active, p[active])
-        for _ in range(max_iter):
-            if active.size == 0:
-                break
-            jw_a, r_a, c_a = jws[active], res[active], chi2[active]
-            jw_t = np.swapaxes(jw_a, -1, -2)
-            a = jw_t @ jw_a
-            g = (jw_t @ r_a[..., None])[..., 0]
-            diag = np.diagonal(a, axis1=-2, axis2=-1)
-            col = np.sqrt(diag)
-            norm_r = np.sqrt(c_a)
-            cosine = np.max(np.abs(g) / np.where(col * norm_r[:, None] > 0, col * norm_r[:, None], np.inf), -1)
-            done = (cosine <= 1e-10) | (c_a == 0)
-            m = a + (np.where(diag > 0, diag, 1.0) * lam[active][:, None])[:, :, None] * np.eye(q)
-            try:
-                step = np.linalg.solve(m, g[..., None])[..., 0]
-            except np.linalg.LinAlgError:
-                step = np.full_like(g, np.nan)
-            p_new = p[active].copy()
-            p_new[:, idx] += step
-            p_new = np.maximum(p_new, lower)
-            moved = p_new[:, idx] - p[active][:, idx]
-            finite = np.all(np.isfinite(p_new), axis=-1)
-            r_new = np.zeros_like(r_a)
-            jw_new = np.zeros_like(jw_a)
-            c_new = np.full(active.size, np.inf)
-            if finite.any():
-                r_new[finite], jw_new[finite], c_new[finite] = state(active[finite], p_new[finite])
-            finite &= np.isfinite(c_new)
-            accept = finite & (c_new <= c_a) & ~done
-            size = np.abs(p[active][:, idx]) + norm_r[:, None] / np.where(col > 0, col, np.inf)
-            small = np.all(np.abs(moved) <= 1e-10 * np.where(size > 0, size, 1.0), axis=-1)
-            done |= accept & small & (c_a - c_new <= 1e-14 * c_a)
-            done |= finite & np.all(moved == 0.0, axis=-1)  # projected onto the bound: nowhere to go
-            stalled = ~accept & ~done & (lam[active] > 1e12)
-            rows_acc = active[accept]
-            p[rows_acc] = p_new[accept]
-            chi2[rows_acc] = c_new[accept]
-            res[rows_acc] = r_new[accept]
-            jws[rows_acc] = jw_new[accept]
-            lam[rows_acc] = np.maximum(lam[rows_acc] * 0.1, 1e-15)
-            lam[active[~accept & ~done]] *= 10.0
-            converged[active[done]] = True
-            converged[active[stalled]] = cosine[stalled] <= 1e-6
-            active = active[~done & ~stalled]
-    converged &= np.all(np.isfinite(p), axis=-1)
-    return p, converged, chi2
+    def start(t, y, w):
+        out = initial_buildup_values(t, y, w, j_hz=j0, fit_j=fit_j, rate_difference=delta, passive_hz=passive)
+        return out[:, idx]
 
-
-def _errors(t, y, w, p, free, lower, ctx, scale_by_chi2):
-    """Standard errors (B, 3) from (JᵀWJ)⁻¹ at ``p`` (NaN for fixed parameters and singular rows), and χ²."""
-    f, jac = buildup_jacobian(t, p, lower_rate=lower[1], **ctx)
-    idx = np.flatnonzero(free)
-    jw = w[..., None] * jac[..., idx]
-    r = w * (y - f)
-    chi2 = (r * r).sum(-1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        cov = _covariance(jw)
-        var = np.diagonal(cov, axis1=-2, axis2=-1).copy()
-        if scale_by_chi2:
-            dof = (w > 0).sum(-1) - idx.size
-            var = var * np.where(dof > 0, chi2 / dof, np.nan)[:, None]
-        out = np.full(p.shape, np.nan)
-        out[:, idx] = np.sqrt(var)
-    return out, chi2
+    return BatchModel(
+        parameters=tuple(PARAMETERS[i] for i in idx),
+        jacobian=jac,
+        initial_values=start,
+        lower=np.array([-np.inf, lower_rate, 0.0][: len(idx)]),
+    )
 
 
 def _fit_lmfit(t, y, w, start, fit_j, rate_difference, passive_hz):
@@ -477,28 +419,6 @@ def _fit_lmfit(t, y, w, start, fit_j, rate_difference, passive_hz):
     values = np.array([result.params[name].value for name in PARAMETERS])
     converged = result.ier in (1, 2, 3, 4, 6, 7, 8) and bool(np.all(np.isfinite(values)))
     return values, converged, result.message
-
-
-# ---------------------------------------------------------------------------------------------------------
-# driver
-# ---------------------------------------------------------------------------------------------------------
-def _as_data(data) -> DecayData:
-    if isinstance(data, DecayData):
-        return data
-    if isinstance(data, pd.DataFrame):
-        return decays_from_frame(data)
-    if isinstance(data, (str, Path)):
-        return read_decays(data)
-    raise BackboneError(f"fit_buildups needs DecayData, a DataFrame or a file path, got {type(data).__name__}")
-
-
-def _usable_mask(flags: np.ndarray) -> np.ndarray:
-    """Points whose only flag (if any) is a non-positive intensity: a build-up passes through zero."""
-    out = np.ones(len(flags), dtype=bool)
-    for i, flag in enumerate(flags):
-        if flag and set(flag.split("; ")) - {FLAG_NONPOSITIVE_INTENSITY}:
-            out[i] = False
-    return out
 
 
 def _check_number(name, value, unit, *, positive=False):
@@ -525,18 +445,9 @@ def _check_passive(passive_hz) -> tuple[float, ...]:
     return tuple(float(v) for v in values)
 
 
-def _check_options(errors, n_draws, engine):
-    if errors not in ERROR_METHODS:
-        raise BackboneError(f"unknown error method {errors!r}; allowed: {', '.join(ERROR_METHODS)}")
-    if engine not in ENGINES:
-        raise BackboneError(f"unknown fitting engine {engine!r}; allowed: {', '.join(ENGINES)}")
-    if isinstance(n_draws, bool) or not isinstance(n_draws, (int, np.integer)):
-        raise BackboneError(f"n_draws must be an integer, got {n_draws!r}")
-    lo, hi = N_DRAWS_RANGE
-    if not lo <= n_draws <= hi:
-        raise BackboneError(f"n_draws = {n_draws} is outside the allowed range [{lo}, {hi}]")
-
-
+# ---------------------------------------------------------------------------------------------------------
+# driver
+# ---------------------------------------------------------------------------------------------------------
 def fit_buildups(
     data,
     *,
@@ -548,6 +459,7 @@ def fit_buildups(
     n_draws: int = 200,
     seed: int | None = None,
     engine: str = "auto",
+    progress=None,
 ) -> FitResult:
     """Fit every residue's build-up curve (intensity against transfer delay) through the step algebra.
 
@@ -572,6 +484,8 @@ def fit_buildups(
         Seed of the draws; None draws fresh entropy, reported in ``global_info["seed"]``.
     engine : str
         ``auto`` (batched, lmfit for the residues it does not converge), ``batched`` or ``lmfit``.
+    progress : callable, optional
+        ``progress(done, total)``, called with the number of residues finished.
 
     Returns
     -------
@@ -584,282 +498,190 @@ def fit_buildups(
     ------
     BackboneError
         Unknown error method or engine, ``n_draws`` out of range, a non-numeric or zero ``j_hz``, a
-        non-numeric ``rate_difference`` or ``passive_hz``, unreadable data.
+        non-numeric ``rate_difference`` or ``passive_hz``, a progress hook that is not callable, unreadable
+        data.
     """
-    _check_options(errors, n_draws, engine)
+    check_fit_options(errors, n_draws, engine)
     j0 = abs(_check_number("j_hz", j_hz, "Hz", positive=True))
     delta = _check_number("rate_difference", rate_difference, "s^-1")
     passive = _check_passive(passive_hz)
     fit_j = bool(fit_j)
-    data = _as_data(data)
-    points = data.points
-    free = np.array([True, True, fit_j])
-    n_par = int(free.sum())
-    need = n_par + 1
-    lower = np.array([-np.inf, max(0.0, -delta), 0.0])
-    ctx = {"rate_difference": delta, "passive_hz": passive}
+    data = as_decay_data(data, "fit_buildups")
+    bm = buildup_batch_model(j_hz=j0, fit_j=fit_j, rate_difference=delta, passive_hz=passive)
+    idx = np.array([0, 1, 2] if fit_j else [0, 1])
+    n_par = idx.size
+    lower_rate = max(0.0, -delta)
     scale_by_chi2 = not data.has_errors
 
-    keys = list(zip(points["series"], points["residue"]))
-    codes, uniques = pd.factorize(pd.Series(keys, dtype=object), sort=False)
-    n_groups = len(uniques)
-    flags = points["flag"].to_numpy(dtype=object)
-    usable = _usable_mask(flags)
-
-    order = np.lexsort((points["delay_s"].to_numpy(), codes))
-    order = order[usable[order]]
-    g_codes = codes[order]
-    counts = np.bincount(g_codes, minlength=n_groups)
-    width = max(int(counts.max()) if counts.size else 0, 1)
-    starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
-    pos = np.arange(order.size) - starts[g_codes]
-    t_pad = np.zeros((n_groups, width))
-    y_pad = np.zeros((n_groups, width))
-    e_pad = np.ones((n_groups, width))
-    used = np.zeros((n_groups, width), dtype=bool)
-    t_pad[g_codes, pos] = points["delay_s"].to_numpy()[order]
-    y_pad[g_codes, pos] = points["intensity"].to_numpy()[order]
-    if data.has_errors:
-        e_pad[g_codes, pos] = points["error"].to_numpy()[order]
-    used[g_codes, pos] = True
-    w_pad = np.where(used, 1.0 / e_pad, 0.0)
-
-    excluded_notes = [[] for _ in range(n_groups)]
-    lines = points["line"].to_numpy()
-    for i in np.flatnonzero(~usable):
-        excluded_notes[codes[i]].append(f"line {lines[i]} {flags[i]}")
-    n_excluded = np.array([len(n) for n in excluded_notes], dtype=int)
-
+    # Intensities may be negative (a build-up passes through zero): only other flags exclude a point.
+    groups = pad_groups(data, usable_mask(data.points["flag"].to_numpy(dtype=object), {FLAG_NONPOSITIVE_INTENSITY}))
+    n_groups = groups.n
+    bar = Progress(progress, n_groups)
+    bar.set(0)
+    t_pad, y_pad, w_pad, used = groups.t, groups.y, groups.w, groups.used
     values = np.full((n_groups, 3), np.nan)
     errs = np.full((n_groups, 3), np.nan)
     chi2 = np.full(n_groups, np.nan)
-    status = np.array(["ok"] * n_groups, dtype=object)
-    reasons: list[list[str]] = [[] for _ in range(n_groups)]
-
-    # Pre-fit checks (as fit_decays).
-    with np.errstate(invalid="ignore"):
-        y_max = np.where(used, np.abs(y_pad), 0.0).max(axis=1)
-        y_range = np.where(used, y_pad, -np.inf).max(axis=1) - np.where(used, y_pad, np.inf).min(axis=1)
-    to_fit = np.zeros(n_groups, dtype=bool)
-    for g in range(n_groups):
-        if counts[g] < need:
-            status[g] = "bad-data" if n_excluded[g] else "too-few-points"
-            reasons[g].append(
-                f"{counts[g]} usable point{'s' if counts[g] != 1 else ''}; "
-                f"the build-up model with {n_par} free parameters needs at least {need}"
-            )
-        elif not y_range[g] > 1e-12 * y_max[g]:
-            status[g] = "failed"
-            reasons[g].append(
-                f"all {counts[g]} usable intensities are equal ({y_pad[g, 0]:g}): "
-                "a constant series has no build-up to fit"
-            )
-        else:
-            to_fit[g] = True
+    status, reasons, to_fit = prefit_statuses(
+        groups, n_par + 1, f"the build-up model with {n_par} free parameters", "build-up"
+    )
 
     # Starting values, then the fits.
     rows = np.flatnonzero(to_fit)
-    start = np.full((n_groups, 3), np.nan)
+    start = np.full((n_groups, n_par), np.nan)
     if rows.size:
-        start[rows] = initial_buildup_values(
-            t_pad[rows], y_pad[rows], w_pad[rows], j_hz=j0, fit_j=fit_j, rate_difference=delta, passive_hz=passive
-        )
+        start[rows] = bm.initial_values(t_pad[rows], y_pad[rows], w_pad[rows])
     for g in rows[~np.all(np.isfinite(start[rows]), axis=-1)]:
         status[g] = "failed"
         reasons[g].append("no starting values: the model curve is zero at every usable delay")
         to_fit[g] = False
+    resampling = errors != "covariance"
+    if not resampling:
+        bar.set(int(np.sum(~to_fit)))
     rows = np.flatnonzero(to_fit)
     converged = np.zeros(n_groups, dtype=bool)
     messages: dict[int, str] = {}
     retry = rows
     used_lmfit = 0
     if engine in ("auto", "batched") and rows.size:
-        p, conv, _ = _fit_rows(t_pad[rows], y_pad[rows], w_pad[rows], start[rows], free, lower, ctx)
-        values[rows[conv]] = p[conv]
+        fit = fit_batch(bm, t_pad[rows], y_pad[rows], w_pad[rows], start[rows], restart=False)
+        conv = fit.converged
+        values[rows[conv][:, None], idx] = fit.params[conv]
         converged[rows[conv]] = True
-        retry = rows[~conv]
+        retry = rows[~conv] if engine == "auto" else rows[:0]
         for g in rows[~conv]:
             messages[g] = "Levenberg-Marquardt did not converge"
+        if not resampling:
+            bar.advance(rows.size - retry.size)
     if engine in ("auto", "lmfit"):
         for g in retry:
             m = used[g]
-            v, conv, message = _fit_lmfit(t_pad[g, m], y_pad[g, m], w_pad[g, m], start[g], fit_j, delta, passive)
+            full_start = np.append(start[g], j0) if not fit_j else start[g]
+            v, conv, message = _fit_lmfit(t_pad[g, m], y_pad[g, m], w_pad[g, m], full_start, fit_j, delta, passive)
             used_lmfit += 1
             if conv:
                 values[g], converged[g] = v, True
                 messages.pop(g, None)
             else:
                 messages[g] = message
+            if not resampling:
+                bar.advance()
     if engine == "auto":
         engine_used = "batched" + (f" (+ lmfit for {used_lmfit} residues)" if used_lmfit else "")
     else:
         engine_used = engine
     fitted = np.flatnonzero(converged)
     if fitted.size:
-        e, c = _errors(
-            t_pad[fitted], y_pad[fitted], w_pad[fitted], values[fitted], free, lower, ctx, scale_by_chi2
+        e, c = covariance_errors(
+            bm, t_pad[fitted], y_pad[fitted], w_pad[fitted], values[fitted][:, idx], scale=scale_by_chi2
         )
-        errs[fitted], chi2[fitted] = e, c
-
-    dof = counts - n_par
-    with np.errstate(divide="ignore", invalid="ignore"):
-        reduced = np.where((dof > 0) & np.isfinite(chi2), chi2 / dof, np.nan)
+        errs[fitted[:, None], idx] = e
+        chi2[fitted] = c
 
     # Resampled errors.
     draws_failed = np.zeros(n_groups, dtype=int)
     seed_used = seed
-    if errors != "covariance":
+    if resampling:
+        bar.set(int(np.sum(~(to_fit & converged))))
         seed_seq = np.random.SeedSequence(seed)
         seed_used = seed if seed is not None else int(seed_seq.entropy)
         children = seed_seq.spawn(n_groups)
         rows_rs = np.flatnonzero(to_fit & converged)
-        arrays = (t_pad, y_pad, e_pad, used, values, counts)
         new_errs, failed_rs = _resampled_errors(
-            errors, n_draws, children, rows_rs, arrays, data.has_errors, free, lower, ctx
+            bm, idx, errors, n_draws, children, rows_rs, groups, values, data.has_errors, bar
         )
         errs[rows_rs] = new_errs
         draws_failed[rows_rs] = failed_rs
 
-    # Post-fit statuses (the rules of fit_decays).
-    judged = np.flatnonzero(free)
-    for g in np.flatnonzero(to_fit):
-        if not converged[g]:
-            status[g] = "failed"
-            why = messages.get(g)
-            reasons[g].append(f"the fit did not converge{': ' + why if why else ''}")
-            values[g] = np.nan
-            errs[g] = np.nan
-            continue
-        if errors == "covariance" and not np.all(np.isfinite(errs[g, judged])):
-            status[g] = "failed"
-            reasons[g].append("the parameters are not determined (singular covariance at the optimum)")
-            values[g] = np.nan
-            errs[g] = np.nan
-            continue
-        notes = []
-        if errors != "covariance" and draws_failed[g] > n_draws // 2:
-            notes.append(f"only {n_draws - draws_failed[g]} of {n_draws} {errors} refits converged")
-        for j in judged:
-            v, e = values[g, j], errs[g, j]
-            if np.isfinite(e) and (v == 0 or e / abs(v) > MAX_RELATIVE_ERROR):
-                ratio = math.inf if v == 0 else e / abs(v)
-                rel = f"{100 * ratio:.0f}%" if ratio <= 10 else "above 1000%"
-                notes.append(f"relative error of {PARAMETERS[j]} is {rel} (> {100 * MAX_RELATIVE_ERROR:.0f}%)")
-        if values[g, 1] <= lower[1]:
-            notes.append(f"fitted rate is at its lower bound ({lower[1]:g} s^-1): the data do not determine it")
-        if notes:
-            status[g] = "poorly-determined"
-            reasons[g] = notes + reasons[g]
-        if errors != "covariance" and 0 < draws_failed[g] <= n_draws // 2:
-            reasons[g].append(f"{draws_failed[g]} of {n_draws} {errors} refits did not converge and were left out")
+    def at_bound(g):
+        if values[g, 1] <= lower_rate:
+            return [f"fitted rate is at its lower bound ({lower_rate:g} s^-1): the data do not determine it"]
+        return []
+
+    postfit_statuses(
+        status,
+        reasons,
+        values,
+        errs,
+        to_fit=to_fit,
+        converged=converged,
+        messages=messages,
+        errors=errors,
+        n_draws=n_draws,
+        draws_failed=draws_failed,
+        judged=tuple(int(i) for i in idx),
+        names=PARAMETERS,
+        extra_notes=at_bound,
+    )
     if not fit_j:
         values[:, 2] = np.where(np.isnan(values[:, 0]), np.nan, j0)
         errs[:, 2] = np.nan
-
-    for g in range(n_groups):
-        if n_excluded[g]:
-            reasons[g].append(
-                f"{n_excluded[g]} point{'s' if n_excluded[g] != 1 else ''} excluded ({'; '.join(excluded_notes[g])})"
-            )
-
-    table = pd.DataFrame({"residue": pd.Series([k[1] for k in uniques], dtype=object)})
-    if data.has_series:
-        table["series"] = [k[0] for k in uniques]
-    table["status"] = status
-    table["reason"] = ["; ".join(r) for r in reasons]
-    for j, name in enumerate(PARAMETERS):
-        table[name] = values[:, j]
-        table[f"{name}_err"] = errs[:, j]
-    table["reduced_chi2"] = reduced
-    table["n_points"] = counts
-    table["n_excluded"] = n_excluded
+    note_exclusions(groups, reasons)
+    table = result_table(groups, data.has_series, status, reasons, PARAMETERS, values, errs, chi2, n_par)
 
     problems = tuple(data.problems())
     global_info = {
         "source": data.source,
         "function": _FUNCTION,
-        "parameters": [PARAMETERS[j] for j in judged],
+        "parameters": [PARAMETERS[j] for j in idx],
         "units": dict(_UNITS),
         "j_hz": j0,
         "fit_j": fit_j,
         "rate_difference": delta,
         "passive_hz": list(passive),
         "errors": errors,
-        "uncertainty": _uncertainty_text(errors, n_draws, data.has_errors),
+        "uncertainty": uncertainty_text(errors, n_draws, data.has_errors),
         "weighted": bool(data.has_errors),
         "engine": engine_used,
         "n_draws": int(n_draws) if errors != "covariance" else None,
         "seed": seed_used,
         "n_residues": int(n_groups),
         "status_counts": {s: int(np.sum(status == s)) for s in STATUSES},
-        "n_points_excluded": int(n_excluded.sum()),
+        "n_points_excluded": int(groups.n_excluded.sum()),
         "problems": list(problems),
     }
-    return FitResult(model=MODEL_ID, table=table, global_info=global_info, problems=problems)
+    bar.finish()
+    return FitResult(model=MODEL_ID, table=table, global_info=global_info, problems=problems, data=data)
 
 
-def _resampled_errors(method, n_draws, children, rows, arrays, has_errors, free, lower, ctx):
-    """Standard deviations of refits to synthetic data for the given groups: (errors (k, 3), failed draws).
-
-    ``arrays`` holds the padded (t, y, errors, used mask, best-fit values, point counts) of every group.
-    """
-    t_pad, y_pad, e_pad, used, values, counts = arrays
+def _resampled_errors(bm, idx, method, n_draws, children, rows, groups, values, has_errors, bar):
+    """Standard deviations of refits to synthetic data for the given groups: (errors (k, 3), failed draws)."""
+    t_pad, y_pad, e_pad, used, counts = groups.t, groups.y, groups.e, groups.used, groups.counts
     out = np.full((rows.size, 3), np.nan)
     failed = np.zeros(rows.size, dtype=int)
     if rows.size == 0:
         return out, failed
-    n_free = int(free.sum())
+    n_free = idx.size
     width = t_pad.shape[1]
     per_chunk = max(1, _DRAW_BATCH_ROWS // n_draws)
     for start in range(0, rows.size, per_chunk):
         chunk = rows[start : start + per_chunk]
         k = chunk.size
         w_c = np.where(used[chunk], 1.0 / e_pad[chunk], 0.0) if has_errors else used[chunk].astype(float)
-        curve, _ = buildup_jacobian(t_pad[chunk], values[chunk], lower_rate=lower[1], **ctx)
+        best = values[chunk][:, idx]
+        curve, _ = bm.jacobian(t_pad[chunk], best)
         synthetic = np.zeros((k, n_draws, width))
         for i, g in enumerate(chunk):
             rng = np.random.default_rng(children[g])
-            n = counts[g]
             m = used[g]
-            if method == "monte-carlo":
-                if has_errors:
-                    sigma = e_pad[g, m]
-                else:
-                    resid = y_pad[g, m] - curve[i, m]
-                    sigma = np.full(n, math.sqrt(np.sum(resid**2) / (n - n_free)) if n > n_free else math.nan)
-                noise = rng.standard_normal((n_draws, n)) * sigma
-            else:
-                wg = w_c[i, m]
-                r = wg * (y_pad[g, m] - curve[i, m])
-                r = (r - r.mean()) * math.sqrt(n / (n - n_free))
-                noise = r[rng.integers(0, n, size=(n_draws, n))] / wg
-            synthetic[i, :, :n] = curve[i, m] + noise
-        p, ok, _ = _fit_rows(
+            noise = resampling_noise(
+                method, rng, y_pad[g, m], curve[i, m], e_pad[g, m], w_c[i, m], n_free, n_draws, has_errors
+            )
+            synthetic[i, :, : counts[g]] = curve[i, m] + noise
+        fit = fit_batch(
+            bm,
             np.repeat(t_pad[chunk], n_draws, axis=0),
             synthetic.reshape(k * n_draws, width),
             np.repeat(w_c, n_draws, axis=0),
-            np.repeat(values[chunk], n_draws, axis=0),
-            free,
-            lower,
-            ctx,
+            np.repeat(best, n_draws, axis=0),
+            restart=False,
         )
-        draws = p.reshape(k, n_draws, 3)
-        ok = ok.reshape(k, n_draws)
+        draws = fit.params.reshape(k, n_draws, n_free)
+        ok = fit.converged.reshape(k, n_draws)
         for i in range(k):
             good = draws[i][ok[i]]
             failed[start + i] = n_draws - good.shape[0]
             if good.shape[0] >= 2:
-                out[start + i] = good.std(axis=0, ddof=1)
-    out[:, ~free] = np.nan
+                out[start + i, idx] = good.std(axis=0, ddof=1)
+        bar.advance(k)
     return out, failed
-
-
-def _uncertainty_text(errors, n_draws, has_errors):
-    if errors == "covariance":
-        if has_errors:
-            return "covariance of the weighted fit, given errors taken as absolute"
-        return "covariance scaled by the reduced chi-square (no error column: noise estimated from the residuals)"
-    noise = "the given errors" if has_errors else "the residual RMS sqrt(RSS/(n-p))"
-    if errors == "monte-carlo":
-        return f"standard deviation of {n_draws} refits of the best fit plus Gaussian noise of {noise}"
-    return f"standard deviation of {n_draws} refits of the best fit plus resampled residuals (bootstrap)"

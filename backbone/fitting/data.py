@@ -6,7 +6,12 @@ Three inputs, as in the architecture notes:
   ``residue,delay_s,intensity[,error][,series]``. ``delay_ms`` may replace ``delay_s`` (converted to seconds
   here, once). ``series`` separates several decay curves of one residue (for example two fields or an R1 and
   an R2 series); each (series, residue) pair is fitted on its own.
-* **Rate tables** (:func:`read_rates`): ``residue,R1,R2[,NOE][,R1_err,R2_err,NOE_err]`` with rates in s⁻¹.
+* **Rate tables** (:func:`read_rates`): ``residue,R1,R2[,NOE][,R1_err,R2_err,NOE_err][,field_mhz]`` with rates
+  in s⁻¹. An optional ``field_mhz`` column (1H frequency in MHz) lets one file hold rates at several fields;
+  values within 1 MHz of each other are one field (:func:`field_groups`).
+* **Intensity tables** (:func:`read_intensities`): peak intensities of several recorded experiments, long
+  format ``residue,experiment,intensity[,error]``, or one peak list ``residue,intensity[,error]`` per experiment
+  (:func:`read_peak_lists`); used by the intensity-ratio fit of :mod:`backbone.fitting.ratio`.
 * **NMR-STAR** (:func:`read_nmrstar`): saveframes of category ``heteronucl_T1_relaxation``,
   ``heteronucl_T2_relaxation`` and ``heteronucl_NOEs`` (NMR-STAR 3 dictionary, read with ``pynmrstar``);
   T1/T2 values in ``s``/``ms`` are converted to rates in s⁻¹.
@@ -53,6 +58,11 @@ __all__ = [
     "FLAG_NONPOSITIVE_ERROR",
     "FLAG_DUPLICATE_DELAY",
     "DecayData",
+    "IntensityTable",
+    "field_groups",
+    "read_intensities",
+    "intensities_from_frame",
+    "read_peak_lists",
     "RateTable",
     "read_decays",
     "decays_from_frame",
@@ -92,8 +102,13 @@ _RATE_COLUMNS = {
     "r1_err": "R1_err",
     "r2_err": "R2_err",
     "noe_err": "NOE_err",
+    "field_mhz": "field_mhz",
 }
-_RATE_ALLOWED = "residue, R1, R2, NOE, R1_err, R2_err, NOE_err"
+_RATE_ALLOWED = "residue, R1, R2, NOE, R1_err, R2_err, NOE_err, field_mhz"
+_INTENSITY_COLUMNS = {"residue": "residue", "experiment": "experiment", "intensity": "intensity", "error": "error"}
+_INTENSITY_ALLOWED = "residue, experiment, intensity, error"
+_PEAK_LIST_COLUMNS = {"residue": "residue", "intensity": "intensity", "error": "error"}
+_PEAK_LIST_ALLOWED = "residue, intensity, error"
 _RATE_QUANTITIES = ("R1", "R2", "NOE")
 
 
@@ -148,12 +163,26 @@ class RateTable:
     source : str
         File name used in messages.
     field_mhz : float or None
-        1H frequency the rates were measured at, if the source says so [MHz].
+        1H frequency the rates were measured at, if the source says so and it is one field [MHz]. A table
+        read with a ``field_mhz`` column keeps that column (NaN where missing, flagged ``field missing``).
     """
 
     table: pd.DataFrame
     source: str = "<table>"
     field_mhz: float | None = None
+
+    @property
+    def fields_mhz(self) -> tuple[float, ...]:
+        """The distinct fields of a table with a ``field_mhz`` column (group means), else ``(field_mhz,)`` or
+        ``()``."""
+        if "field_mhz" not in self.table.columns:
+            return () if self.field_mhz is None else (float(self.field_mhz),)
+        values = self.table["field_mhz"].to_numpy(dtype=float)
+        values = values[np.isfinite(values)]
+        if values.size == 0:
+            return ()
+        groups = field_groups(values)
+        return tuple(float(np.mean(values[groups == g])) for g in range(int(groups.max()) + 1))
 
     def problems(self) -> list[str]:
         """One message per flagged row."""
@@ -472,10 +501,50 @@ def _validate_rates(frame: pd.DataFrame, source: str, where: str, field_mhz=None
             out[err_col] = err
             flags.append((np.isfinite(err) & (err <= 0), f"non-positive {err_col}"))
     out["line"] = frame["line"].to_numpy(dtype=int)
-    dup = out["residue"].astype(str).duplicated(keep=False).to_numpy()
-    flags.append((dup, "residue listed more than once"))
+    keys = out["residue"].astype(str)
+    if "field_mhz" in columns:
+        from backbone.units import FIELD_MHZ
+
+        fields = _numeric(frame, "field_mhz", source, where)
+        finite = np.isfinite(fields)
+        FIELD_MHZ.check(fields[finite], where=f"{source} column 'field_mhz'")
+        if field_mhz is not None and np.any(np.abs(fields[finite] - float(field_mhz)) > 1.0):
+            raise BackboneError(
+                f"{source}: give the field once: a 'field_mhz' column or field_mhz = {field_mhz:g}, not both"
+            )
+        out["field_mhz"] = fields
+        flags.append((~finite, "field missing"))
+        group = np.full(len(out), -1)
+        if finite.any():
+            group[finite] = field_groups(fields[finite])
+        keys = keys + "@" + pd.Series(group).astype(str)
+        distinct = np.unique(group[finite])
+        if field_mhz is None and distinct.size == 1:
+            field_mhz = float(np.mean(fields[finite]))
+    dup = keys.duplicated(keep=False).to_numpy()
+    flags.append((dup, "residue listed more than once" + (" at this field" if "field_mhz" in columns else "")))
     out["flag"] = _join_flags(*flags)
     return RateTable(table=out, source=source, field_mhz=field_mhz)
+
+
+def field_groups(values) -> np.ndarray:
+    """Group index per value: sorted fields within 1 MHz of the lowest of a group are one field.
+
+    Spectrometers differ slightly from their nominal frequency (600.13 for "600"), so values a fraction of a
+    MHz apart name the same field. ``values`` : array [MHz], finite. Groups are numbered from 0 upwards in
+    increasing field.
+    """
+    values = np.asarray(values, dtype=float)
+    unique = np.unique(values)
+    group = np.zeros(unique.size, dtype=int)
+    first = unique[0] if unique.size else 0.0
+    for k in range(1, unique.size):
+        if unique[k] - first > 1.0:
+            first = unique[k]
+            group[k] = group[k - 1] + 1
+        else:
+            group[k] = group[k - 1]
+    return group[np.searchsorted(unique, values)]
 
 
 # ---------------------------------------------------------------------------------------------------------
@@ -694,3 +763,143 @@ def _star_list(frame, source, loop_category, value_tag, error_tag, quantity, uni
         )
     values = pd.DataFrame(records, columns=["key", "residue_name", "value", "error"])
     return name, quantity, field, values
+
+
+# ---------------------------------------------------------------------------------------------------------
+# intensity tables (several recorded experiments)
+# ---------------------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class IntensityTable:
+    """Validated peak intensities of several recorded experiments.
+
+    Attributes
+    ----------
+    points : pandas.DataFrame
+        One row per (residue, experiment) in input order: ``residue``, ``experiment`` (as written),
+        ``intensity``, ``error`` (NaN without an error column), ``source`` (file), ``line`` and ``flag`` (``""``
+        if usable; else ``intensity missing``, ``non-positive intensity``, ``error missing``,
+        ``non-positive error``, ``listed more than once``).
+    source : str
+        File name(s) used in messages.
+    has_errors : bool
+    experiments : tuple of str
+        The experiment labels in order of first appearance.
+    """
+
+    points: pd.DataFrame
+    source: str = "<table>"
+    has_errors: bool = False
+    experiments: tuple[str, ...] = ()
+
+    def problems(self) -> list[str]:
+        """One message per flagged row."""
+        flagged = self.points[self.points["flag"] != ""]
+        return [
+            f"{row.source} line {row.line} (residue {row.residue}, {row.experiment}): {row.flag}"
+            for row in flagged.itertuples(index=False)
+        ]
+
+
+def read_intensities(path) -> IntensityTable:
+    """Read a long table ``residue,experiment,intensity[,error]`` of peak intensities.
+
+    ``experiment`` labels the recording (an experiment name such as ``HSQC`` or ``TROSY``; matched
+    case-insensitively by the ratio fit). Text format and errors as :func:`read_decays`.
+    """
+    source, _, frame = _tokenize(path, _INTENSITY_COLUMNS, _INTENSITY_ALLOWED)
+    return _validate_intensities(frame, source, "line")
+
+
+def intensities_from_frame(frame: pd.DataFrame, *, source: str = "<table>") -> IntensityTable:
+    """Validate a DataFrame with the columns of :func:`read_intensities` (names case-insensitive)."""
+    if not isinstance(frame, pd.DataFrame):
+        raise BackboneError(f"{source}: expected a pandas DataFrame of intensities, got {type(frame).__name__}")
+    renamed = {}
+    for name in frame.columns:
+        canonical = _INTENSITY_COLUMNS.get(str(name).strip().lower())
+        if canonical is None:
+            raise BackboneError(f"{source}: unknown column {name!r}; allowed columns: {_INTENSITY_ALLOWED}")
+        if canonical in renamed.values():
+            raise BackboneError(f"{source}: column {name!r} appears twice")
+        renamed[name] = canonical
+    if frame.empty:
+        raise BackboneError(f"{source}: no data rows")
+    table = frame.rename(columns=renamed).reset_index(drop=True)
+    table["line"] = np.arange(1, len(table) + 1)
+    return _validate_intensities(table, source, "row")
+
+
+def read_peak_lists(path_a, path_b, *, experiments) -> IntensityTable:
+    """Read two peak lists ``residue,intensity[,error]``, one per recorded experiment.
+
+    Parameters
+    ----------
+    path_a, path_b : str or Path
+        The peak lists of the first and second experiment.
+    experiments : pair of str
+        Their labels (e.g. ``("TROSY", "HSQC")``).
+
+    Both lists must agree on having an error column or not.
+    """
+    if isinstance(experiments, str) or len(experiments) != 2:
+        raise BackboneError(f"read_peak_lists: experiments must name two experiments, got {experiments!r}")
+    parts = []
+    for path, label in zip((path_a, path_b), experiments):
+        source, columns, frame = _tokenize(path, _PEAK_LIST_COLUMNS, _PEAK_LIST_ALLOWED)
+        frame["experiment"] = str(label)
+        parts.append((source, "error" in columns, frame))
+    if parts[0][1] != parts[1][1]:
+        with_err = parts[0][0] if parts[0][1] else parts[1][0]
+        raise BackboneError(
+            f"{with_err} has an error column but the other peak list has not; give errors in both or in neither"
+        )
+    if str(experiments[0]).strip().lower() == str(experiments[1]).strip().lower():
+        raise BackboneError(f"read_peak_lists: the two experiments have the same label {experiments[0]!r}")
+    tables = [_validate_intensities(frame, source, "line") for source, _, frame in parts]
+    return IntensityTable(
+        points=pd.concat([t.points for t in tables], ignore_index=True),
+        source=f"{tables[0].source}, {tables[1].source}",
+        has_errors=tables[0].has_errors,
+        experiments=(str(experiments[0]).strip(), str(experiments[1]).strip()),
+    )
+
+
+def _validate_intensities(frame: pd.DataFrame, source: str, where: str) -> IntensityTable:
+    columns = set(frame.columns)
+    for required in ("residue", "experiment", "intensity"):
+        if required not in columns:
+            raise BackboneError(f"{source}: missing column {required!r}; required: residue, experiment, intensity")
+    residue = _residues(frame, source, where)
+    experiment = frame["experiment"].map(
+        lambda v: "" if v is None or (isinstance(v, float) and math.isnan(v)) else str(v).strip()
+    )
+    empty = [str(n) for n, e in zip(frame["line"], experiment) if not e]
+    if empty:
+        raise BackboneError(f"{source}: empty experiment label ({where} {', '.join(empty[:5])})")
+    intensity = _numeric(frame, "intensity", source, where)
+    has_errors = "error" in columns
+    error = _numeric(frame, "error", source, where) if has_errors else np.full(len(frame), np.nan)
+    points = pd.DataFrame(
+        {
+            "residue": residue.to_numpy(dtype=object),
+            "experiment": experiment.to_numpy(dtype=object),
+            "intensity": intensity,
+            "error": error,
+            "source": source,
+            "line": frame["line"].to_numpy(dtype=int),
+        }
+    )
+    key = pd.Series(list(zip(points["residue"].astype(str), points["experiment"].str.lower())), dtype=object)
+    flags = [
+        (~np.isfinite(intensity), FLAG_INTENSITY_MISSING),
+        (np.isfinite(intensity) & (intensity <= 0), FLAG_NONPOSITIVE_INTENSITY),
+        (key.duplicated(keep=False).to_numpy(), "listed more than once"),
+    ]
+    if has_errors:
+        flags += [
+            (~np.isfinite(error), FLAG_ERROR_MISSING),
+            (np.isfinite(error) & (error <= 0), FLAG_NONPOSITIVE_ERROR),
+        ]
+    points["flag"] = _join_flags(*flags)
+    labels = tuple(dict.fromkeys(points["experiment"]))
+    return IntensityTable(points=points, source=source, has_errors=has_errors, experiments=labels)

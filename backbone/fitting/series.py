@@ -10,7 +10,9 @@ Engines
 Exponential fits of hundreds of residues are small and alike, so the default engine fits them all at once:
 :func:`fit_batch` is a Levenberg–Marquardt iteration (Marquardt's diagonal scaling; Levenberg 1944, Quart.
 Appl. Math. 2, 164; Marquardt 1963, J. SIAM 11, 431) vectorized over residues with numpy, with analytic
-Jacobians from :func:`backbone.fitting.decay.jacobian` and the covariance ``(JᵀWJ)⁻¹`` at the optimum.
+Jacobians from :func:`backbone.fitting.decay.jacobian` and the covariance ``(JᵀWJ)⁻¹`` at the optimum. It
+fits any :class:`BatchModel` (model values and Jacobian for many parameter vectors, starting values, bounds):
+the build-up fits of :mod:`backbone.fitting.buildup` use the same engine.
 Residues it cannot converge (or leaves at a degenerate point) are refitted one by one with lmfit (MINPACK
 ``leastsq``), the general path; ``engine="lmfit"`` fits everything that way. Both find the same
 least-squares optimum; the tests check agreement with lmfit to 1e-6 relative.
@@ -27,11 +29,14 @@ Uncertainties
   centred, ``sqrt(n / (n - p))``-inflated (weighted) residuals are resampled with replacement onto the
   best-fit curve and refitted ``n_draws`` times.
 
+Progress: ``progress=callable(done, total)`` is called as residues are finished (the library never prints).
+
 Draws use a :class:`numpy.random.Generator` per residue, spawned from one ``SeedSequence(seed)`` in input
 order, so a residue's draws do not depend on the other residues; the seed used is reported in ``global``.
 
 Statuses
 --------
+The rules are shared with the build-up fits (:mod:`backbone.fitting._shared`).
 ``too-few-points``: fewer usable points than parameters + 1 (the two-point model needs 2) and none excluded.
 ``bad-data``: the same after excluding flagged points. ``failed``: the fit did not converge, ended at a
 degenerate point where the parameters are not determined (singular covariance, e.g. a rate run off to
@@ -49,14 +54,34 @@ from __future__ import annotations
 
 import math
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from backbone.errors import BackboneError
-from backbone.fitting.data import FLAG_NONPOSITIVE_INTENSITY, DecayData, decays_from_frame, read_decays
+from backbone.fitting._shared import (
+    ENGINES,
+    ERROR_METHODS,
+    MAX_RELATIVE_ERROR,
+    N_DRAWS_RANGE,
+    STATUSES,
+    Progress,
+    as_decay_data,
+    check_fit_options,
+    covariance,
+    json_value,
+    note_exclusions,
+    pad_groups,
+    postfit_statuses,
+    prefit_statuses,
+    resampling_noise,
+    result_table,
+    uncertainty_text,
+    usable_mask,
+)
+from backbone.fitting.data import FLAG_NONPOSITIVE_INTENSITY, DecayData
 from backbone.fitting.decay import (
     LEASTSQ_PRECISE,
     MODEL_IDS,
@@ -74,22 +99,14 @@ __all__ = [
     "ENGINES",
     "N_DRAWS_RANGE",
     "MAX_RELATIVE_ERROR",
+    "BatchModel",
     "BatchFit",
     "FitResult",
+    "decay_batch_model",
     "fit_batch",
+    "covariance_errors",
     "fit_decays",
 ]
-
-#: Status values of a fitted residue (the ``backbone fit --json`` contract).
-STATUSES = ("ok", "poorly-determined", "failed", "too-few-points", "bad-data")
-#: Uncertainty methods.
-ERROR_METHODS = ("covariance", "monte-carlo", "bootstrap")
-#: Fitting engines: ``auto`` (batched, lmfit for the residues it cannot converge), ``batched``, ``lmfit``.
-ENGINES = ("auto", "batched", "lmfit")
-#: Allowed number of Monte Carlo / bootstrap draws per residue (inclusive).
-N_DRAWS_RANGE = (10, 10000)
-#: Relative error above which a parameter is poorly determined (common practice).
-MAX_RELATIVE_ERROR = 0.5
 
 _FUNCTIONS = {
     "decay": "amplitude * exp(-rate * t)",
@@ -107,13 +124,57 @@ _DRAW_BATCH_ROWS = 50_000
 # batched Levenberg–Marquardt
 # ---------------------------------------------------------------------------------------------------------
 @dataclass(frozen=True)
+class BatchModel:
+    """A model :func:`fit_batch` can fit to many rows at once.
+
+    Attributes
+    ----------
+    parameters : tuple of str
+        Names of the fitted parameters, in the order of the parameter vectors.
+    jacobian : callable
+        ``jacobian(t, params) -> (values, jac)`` for ``t`` (B, n) [s] and ``params`` (B, p): model values
+        (B, n) and derivatives (B, n, p).
+    initial_values : callable or None
+        ``initial_values(t, y, w) -> (B, p)`` starting values (NaN rows where none can be found); used when no
+        ``p0`` is given and for restarts.
+    lower, upper : array (p,) or None
+        Bounds; steps are projected onto them. None: unbounded.
+    """
+
+    parameters: tuple
+    jacobian: Callable
+    initial_values: Callable | None = None
+    lower: np.ndarray | None = None
+    upper: np.ndarray | None = None
+
+
+def decay_batch_model(model: str) -> BatchModel:
+    """The :class:`BatchModel` of a decay model id (``decay``, ``decay-offset``, ``recovery``)."""
+    if model not in MODEL_IDS[:3]:
+        raise BackboneError(f"unknown batch model {model!r}; allowed: {', '.join(MODEL_IDS[:3])} or a BatchModel")
+    return BatchModel(
+        parameters=PARAMETERS[model],
+        jacobian=lambda t, p: jacobian(model, t, p),
+        initial_values=lambda t, y, w: initial_values(model, t, y, w),
+    )
+
+
+def _as_batch_model(model) -> BatchModel:
+    if isinstance(model, BatchModel):
+        return model
+    if isinstance(model, str):
+        return decay_batch_model(model)
+    raise BackboneError(f"fit_batch: model must be a decay model id or a BatchModel, got {type(model).__name__}")
+
+
+@dataclass(frozen=True)
 class BatchFit:
     """Result of :func:`fit_batch` for B rows.
 
     Attributes
     ----------
     params : array (B, p)
-        Best-fit parameters, order of :data:`~backbone.fitting.decay.PARAMETERS`.
+        Best-fit parameters, order of the model's parameters.
     covariance : array (B, p, p)
         ``(JᵀWJ)⁻¹`` at the optimum (weights taken as absolute); NaN where singular.
     chi2 : array (B,)
@@ -148,65 +209,64 @@ class BatchFit:
 
 
 def _solve_symmetric(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    return np.linalg.solve(a, b[..., None])[..., 0]
-
-
-def _covariance(jw: np.ndarray) -> np.ndarray:
-    """(JᵀJ)⁻¹ per row via an eigen-decomposition of the diagonally scaled matrix; NaN where singular."""
-    a = np.swapaxes(jw, -1, -2) @ jw
-    d = np.sqrt(np.diagonal(a, axis1=-2, axis2=-1))
-    ok = np.all(d > 0, axis=-1) & np.all(np.isfinite(a), axis=(-2, -1))
-    d_safe = np.where(ok[:, None], d, 1.0)
-    s = a / (d_safe[:, :, None] * d_safe[:, None, :])
-    s = np.where(ok[:, None, None], s, np.eye(a.shape[-1]))
-    lam, vec = np.linalg.eigh(s)
-    ok &= lam[:, 0] > 1e-13 * lam[:, -1]
-    inv = np.einsum("bik,bk,bjk->bij", vec, 1.0 / np.where(lam > 0, lam, np.inf), vec)
-    cov = inv / (d_safe[:, :, None] * d_safe[:, None, :])
-    cov[~ok] = np.nan
-    return cov
+    try:
+        return np.linalg.solve(a, b[..., None])[..., 0]
+    except np.linalg.LinAlgError:
+        out = np.full(b.shape, np.nan)
+        for i in range(a.shape[0]):
+            try:
+                out[i] = np.linalg.solve(a[i], b[i])
+            except np.linalg.LinAlgError:
+                pass
+        return out
 
 
 def fit_batch(model, t, y, weights=None, p0=None, *, max_iter: int = 200, restart: bool = True) -> BatchFit:
     """Weighted least-squares fits of one model to many rows at once (Levenberg–Marquardt).
 
-    Minimizes ``sum(w² (y - f(t; p))²)`` per row. Convergence: the largest cosine between the residual vector
-    and a Jacobian column below 1e-10 (MINPACK's gtol test), or an accepted step whose extrapolated remaining
-    distance (linear convergence estimated from successive steps) is below 1e-10 of each parameter (or of its
-    σ-like scale ``|r| / |J_j|`` when that is larger), or an undamped step whose predicted chi-square
-    reduction is below 1e-15 of the chi-square (round-off: no further step could be verified). A row whose
-    damping grows past 1e12 without any of these is converged only if that cosine is below 1e-6.
+    Minimizes ``sum(w² (y - f(t; p))²)`` per row, steps projected onto the model's bounds. Convergence: the
+    largest cosine between the residual vector and a Jacobian column below 1e-10 (MINPACK's gtol test), or an
+    accepted step whose extrapolated remaining distance (linear convergence estimated from successive steps)
+    is below 1e-10 of each parameter (or of its σ-like scale ``|r| / |J_j|`` when that is larger), or an
+    undamped step whose predicted chi-square reduction is below 1e-15 of the chi-square (round-off: no further
+    step could be verified), or a step the bounds reduce to nothing. A row whose damping grows past 1e12
+    without any of these is converged only if that cosine is below 1e-6.
 
     Parameters
     ----------
-    model : str
-        ``decay``, ``decay-offset`` or ``recovery``.
+    model : str or BatchModel
+        ``decay``, ``decay-offset``, ``recovery`` (:func:`decay_batch_model`), or any :class:`BatchModel`.
     t : array [s], shape (n,) or (B, n)
     y : array [intensity], shape (B, n) or (n,)
     weights : array, optional, broadcastable to (B, n)
         1/σ per point; 0 removes a point (padding of ragged rows). Default 1.
     p0 : array (B, p) or (p,), optional
-        Starting values; default :func:`~backbone.fitting.decay.initial_values`.
+        Starting values; default the model's ``initial_values``.
     max_iter : int
         Iteration limit per row.
     restart : bool
         With ``p0`` given, rows that do not converge or end at a degenerate point (singular ``JᵀWJ``, as when
-        the rate runs off to infinity and its Jacobian column vanishes) are refitted from
-        :func:`~backbone.fitting.decay.initial_values`; the result with the smaller chi-square is kept.
+        the rate runs off to infinity and its Jacobian column vanishes) are refitted from the model's
+        ``initial_values``; the result with the smaller chi-square is kept.
 
     Returns
     -------
     BatchFit
     """
+    bm = _as_batch_model(model)
     y = np.atleast_2d(np.asarray(y, dtype=float))
     t = np.broadcast_to(np.asarray(t, dtype=float), y.shape)
     w = np.ones_like(y) if weights is None else np.broadcast_to(np.asarray(weights, dtype=float), y.shape)
     w = np.where(np.isfinite(w) & (w > 0), w, 0.0)
     y = np.where(w > 0, y, 0.0)
     t = np.where(w > 0, t, 0.0)
-    n_par = len(PARAMETERS[model])
+    n_par = len(bm.parameters)
+    lower = np.full(n_par, -np.inf) if bm.lower is None else np.asarray(bm.lower, dtype=float)
+    upper = np.full(n_par, np.inf) if bm.upper is None else np.asarray(bm.upper, dtype=float)
     if p0 is None:
-        p = initial_values(model, t, y, w)
+        if bm.initial_values is None:
+            raise BackboneError("fit_batch: the model has no initial_values; give p0")
+        p = np.array(bm.initial_values(t, y, w), dtype=float)
     else:
         p = np.array(np.broadcast_to(np.asarray(p0, dtype=float), (y.shape[0], n_par)))
     n_rows = y.shape[0]
@@ -219,19 +279,17 @@ def fit_batch(model, t, y, weights=None, p0=None, *, max_iter: int = 200, restar
     active = np.flatnonzero(np.all(np.isfinite(p), axis=-1) & (n_points >= n_par))
 
     def state(rows, params):
-        f, jac = jacobian(model, t[rows], params)
+        f, jac = bm.jacobian(t[rows], params)
         r = w[rows] * (y[rows] - f)
         jw = w[rows][..., None] * jac
         return r, jw, (r * r).sum(axis=-1)
 
     with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
-        r, jw, chi2_all = state(active, p[active])
         chi2 = np.full(n_rows, np.nan)
-        chi2[active] = chi2_all
         res = np.zeros_like(y)
-        res[active] = r
         jws = np.zeros(y.shape + (n_par,))
-        jws[active] = jw
+        if active.size:
+            res[active], jws[active], chi2[active] = state(active, p[active])
         for _ in range(max_iter):
             if active.size == 0:
                 break
@@ -248,10 +306,15 @@ def fit_batch(model, t, y, weights=None, p0=None, *, max_iter: int = 200, restar
             done = (cosine <= 1e-10) | (c_a == 0)
             damping = np.where(diag > 0, diag, 1.0) * lam[active][:, None]
             m = a + damping[:, :, None] * np.eye(n_par)
-            step = _solve_symmetric(m, g)
-            p_new = p_a + step
-            r_new, jw_new, c_new = state(active, p_new)
-            accept = np.isfinite(c_new) & (c_new <= c_a) & np.all(np.isfinite(p_new), axis=-1) & ~done
+            p_new = np.clip(p_a + _solve_symmetric(m, g), lower, upper)
+            step = p_new - p_a
+            finite = np.all(np.isfinite(p_new), axis=-1)
+            r_new = np.zeros_like(r_a)
+            jw_new = np.zeros_like(jw_a)
+            c_new = np.full(active.size, np.inf)
+            if finite.any():
+                r_new[finite], jw_new[finite], c_new[finite] = state(active[finite], p_new[finite])
+            accept = finite & np.isfinite(c_new) & (c_new <= c_a) & ~done
             # Step size in units of max(|p_j|, σ-like scale |r|/|J_j|); Gauss-Newton converges linearly near
             # the optimum, so the distance left after an accepted step is about u ρ/(1 - ρ), with ρ the ratio
             # of successive step sizes.
@@ -268,7 +331,9 @@ def fit_batch(model, t, y, weights=None, p0=None, *, max_iter: int = 200, restar
             # So does a step whose predicted chi-square reduction (linear model, MINPACK's ftol test) is below
             # the round-off of the chi-square itself: no further step could be verified.
             predicted = 2.0 * np.sum(step * g, axis=-1) - np.einsum("bi,bij,bj->b", step, a, step)
-            done |= (predicted <= 1e-15 * c_a) & np.all(np.isfinite(step), axis=-1) & (lam[active] <= 1e-3)
+            done |= (predicted <= 1e-15 * c_a) & finite & (lam[active] <= 1e-3)
+            # A step the bounds reduce to nothing: the row sits on a bound with nowhere to go.
+            done |= finite & np.all(step == 0.0, axis=-1)
             u_prev[active[accept]] = u[accept]
             stalled = ~accept & ~done & (lam[active] > 1e12)
             rows_acc = active[accept]
@@ -284,16 +349,17 @@ def fit_batch(model, t, y, weights=None, p0=None, *, max_iter: int = 200, restar
             active = active[~done & ~stalled]
 
         cov = np.full((n_rows, n_par, n_par), np.nan)
-        if restart and p0 is not None:
+        if restart and p0 is not None and bm.initial_values is not None:
             # Rows that did not converge, or ran to a degenerate point (e.g. rate → ∞, where a Jacobian
             # column vanishes), are restarted from the data-driven starting values.
-            _, jw_end, _ = state(np.arange(n_rows), p)
-            degenerate = ~converged | np.any(np.isnan(_covariance(jw_end)), axis=(-2, -1))
+            ok_rows = np.flatnonzero(np.all(np.isfinite(p), axis=-1))
+            degenerate = ~converged.copy()
+            if ok_rows.size:
+                _, jw_end, _ = state(ok_rows, p[ok_rows])
+                degenerate[ok_rows] |= np.any(np.isnan(covariance(jw_end)), axis=(-2, -1))
             again = np.flatnonzero(degenerate & (n_points >= n_par))
             if again.size:
-                second = fit_batch(
-                    model, t[again], y[again], w[again], None, max_iter=max_iter, restart=False
-                )
+                second = fit_batch(bm, t[again], y[again], w[again], None, max_iter=max_iter, restart=False)
                 better = second.converged & (
                     ~converged[again] | (second.chi2 < chi2[again]) | ~np.isfinite(chi2[again])
                 )
@@ -304,12 +370,31 @@ def fit_batch(model, t, y, weights=None, p0=None, *, max_iter: int = 200, restar
         fitted = np.flatnonzero(np.all(np.isfinite(p), axis=-1) & (n_points >= n_par))
         if fitted.size:
             _, jw_f, c_f = state(fitted, p[fitted])
-            cov[fitted] = _covariance(jw_f)
+            cov[fitted] = covariance(jw_f)
             chi2[fitted] = c_f
     converged &= np.all(np.isfinite(p), axis=-1)
     return BatchFit(
         params=p, covariance=cov, chi2=chi2, n_points=n_points, converged=converged, n_iter=n_iter
     )
+
+
+def covariance_errors(model, t, y, w, params, *, scale: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Standard errors (B, p) from ``(JᵀWJ)⁻¹`` at ``params`` and the weighted χ² (B,), for any rows.
+
+    ``scale=True`` multiplies the covariance by χ²/(n − p) (noise estimated from the residuals). NaN errors
+    where the covariance is singular.
+    """
+    bm = _as_batch_model(model)
+    t, y, w, params = (np.atleast_2d(np.asarray(a, dtype=float)) for a in (t, y, w, params))
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        f, jac = bm.jacobian(t, params)
+        r = w * (y - f)
+        chi2 = (r * r).sum(-1)
+        var = np.diagonal(covariance(w[..., None] * jac), axis1=-2, axis2=-1).copy()
+        if scale:
+            dof = (w > 0).sum(-1) - params.shape[-1]
+            var = var * np.where(dof > 0, chi2 / dof, np.nan)[:, None]
+        return np.sqrt(var), chi2
 
 
 # ---------------------------------------------------------------------------------------------------------
@@ -338,12 +423,14 @@ def _fit_lmfit(model, t, y, w, scale):
     else:
         # MINPACK stopped on its tolerance floor (ier 6-8) and returned no covariance: use the analytic one.
         _, jac = jacobian(model, t[None], values[None])
-        cov = _covariance(w[None, :, None] * jac)[0]
+        cov = covariance(w[None, :, None] * jac)[0]
         dof = len(y) - n_par
         factor = chi2 / dof if scale and dof > 0 else 1.0
         with np.errstate(invalid="ignore"):
             errs = np.sqrt(np.diagonal(cov) * factor)
     return values, errs, chi2, converged, result.message
+
+
 
 
 # ---------------------------------------------------------------------------------------------------------
@@ -366,72 +453,32 @@ class FitResult:
         Model, method, seed and counts (the ``global`` object of the JSON output).
     problems : tuple of str
         The data problems (flagged points) of the input.
+    data : DecayData or None
+        The data that were fitted (for plots); not part of :meth:`as_dict`.
     """
 
     model: str
     table: pd.DataFrame
     global_info: dict = field(default_factory=dict)
     problems: tuple[str, ...] = ()
+    data: DecayData | None = field(default=None, repr=False, compare=False)
 
     def as_dict(self) -> dict:
         """JSON-ready ``{"model", "residues": [...], "global": {...}}`` (NaN written as ``None``)."""
         residues = [
-            {key: _json_value(value) for key, value in row.items()}
-            for row in self.table.to_dict(orient="records")
+            {key: json_value(value) for key, value in row.items()} for row in self.table.to_dict(orient="records")
         ]
-        return {"model": self.model, "residues": residues, "global": _json_value(self.global_info)}
-
-
-def _json_value(value):
-    if isinstance(value, dict):
-        return {str(k): _json_value(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_json_value(v) for v in value]
-    if isinstance(value, (bool, np.bool_)):
-        return bool(value)
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        return float(value) if math.isfinite(value) else None
-    return value
+        return {"model": self.model, "residues": residues, "global": json_value(self.global_info)}
 
 
 def _check_options(model, errors, n_draws, engine):
     if model not in MODEL_IDS:
         raise BackboneError(f"unknown fit model {model!r}; allowed: {', '.join(MODEL_IDS)}")
-    if errors not in ERROR_METHODS:
-        raise BackboneError(f"unknown error method {errors!r}; allowed: {', '.join(ERROR_METHODS)}")
-    if engine not in ENGINES:
-        raise BackboneError(f"unknown fitting engine {engine!r}; allowed: {', '.join(ENGINES)}")
-    if isinstance(n_draws, bool) or not isinstance(n_draws, (int, np.integer)):
-        raise BackboneError(f"n_draws must be an integer, got {n_draws!r}")
-    lo, hi = N_DRAWS_RANGE
-    if not lo <= n_draws <= hi:
-        raise BackboneError(f"n_draws = {n_draws} is outside the allowed range [{lo}, {hi}]")
+    check_fit_options(errors, n_draws, engine)
     if model == "two-point" and errors == "bootstrap":
         raise BackboneError(
-            "errors='bootstrap' needs residuals, and a two-point rate has none; "
-            "use 'covariance' or 'monte-carlo'"
+            "errors='bootstrap' needs residuals, and a two-point rate has none; use 'covariance' or 'monte-carlo'"
         )
-
-
-def _as_data(data) -> DecayData:
-    if isinstance(data, DecayData):
-        return data
-    if isinstance(data, pd.DataFrame):
-        return decays_from_frame(data)
-    if isinstance(data, (str, Path)):
-        return read_decays(data)
-    raise BackboneError(f"fit_decays needs DecayData, a DataFrame or a file path, got {type(data).__name__}")
-
-
-def _usable_mask(flags: np.ndarray, model: str) -> np.ndarray:
-    ignorable = {FLAG_NONPOSITIVE_INTENSITY} if model in ("decay-offset", "recovery") else set()
-    out = np.ones(len(flags), dtype=bool)
-    for i, flag in enumerate(flags):
-        if flag and set(flag.split("; ")) - ignorable:
-            out[i] = False
-    return out
 
 
 def fit_decays(
@@ -442,6 +489,7 @@ def fit_decays(
     n_draws: int = 200,
     seed: int | None = None,
     engine: str = "auto",
+    progress=None,
 ) -> FitResult:
     """Fit every residue's decay series and report statuses and uncertainties.
 
@@ -459,6 +507,8 @@ def fit_decays(
         Seed of the draws; None draws fresh entropy, reported in ``global_info["seed"]``.
     engine : str
         ``auto`` (default), ``batched`` or ``lmfit``.
+    progress : callable, optional
+        ``progress(done, total)``, called with the number of residues finished (total: the input residues).
 
     Returns
     -------
@@ -469,75 +519,29 @@ def fit_decays(
     Raises
     ------
     BackboneError
-        Unknown model/method/engine, ``n_draws`` out of range, bootstrap with the two-point model, or
-        unreadable data.
+        Unknown model/method/engine, ``n_draws`` out of range, bootstrap with the two-point model, a progress
+        hook that is not callable, or unreadable data.
     """
     _check_options(model, errors, n_draws, engine)
-    data = _as_data(data)
-    points = data.points
+    data = as_decay_data(data, "fit_decays")
     names = PARAMETERS[model]
     n_par = len(names)
     need = 2 if model == "two-point" else n_par + 1
     scale = not data.has_errors
-
-    keys = list(zip(points["series"], points["residue"]))
-    codes, uniques = pd.factorize(pd.Series(keys, dtype=object), sort=False)
-    n_groups = len(uniques)
-    usable = _usable_mask(points["flag"].to_numpy(dtype=object), model)
-
-    # Padded arrays of the usable points, one row per group, in delay order.
-    order = np.lexsort((points["delay_s"].to_numpy(), codes))
-    order = order[usable[order]]
-    g_codes = codes[order]
-    counts = np.bincount(g_codes, minlength=n_groups)
-    width = max(int(counts.max()) if counts.size else 0, 1)
-    starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
-    pos = np.arange(order.size) - starts[g_codes]
-    t_pad = np.zeros((n_groups, width))
-    y_pad = np.zeros((n_groups, width))
-    e_pad = np.ones((n_groups, width))
-    used = np.zeros((n_groups, width), dtype=bool)
-    t_pad[g_codes, pos] = points["delay_s"].to_numpy()[order]
-    y_pad[g_codes, pos] = points["intensity"].to_numpy()[order]
-    if data.has_errors:
-        e_pad[g_codes, pos] = points["error"].to_numpy()[order]
-    used[g_codes, pos] = True
-    w_pad = np.where(used, 1.0 / e_pad, 0.0)
-
-    # Exclusion notes per group.
-    excluded_notes = [[] for _ in range(n_groups)]
-    lines = points["line"].to_numpy()
-    flags = points["flag"].to_numpy(dtype=object)
-    for i in np.flatnonzero(~usable):
-        excluded_notes[codes[i]].append(f"line {lines[i]} {flags[i]}")
-    n_excluded = np.array([len(n) for n in excluded_notes], dtype=int)
+    ignorable = {FLAG_NONPOSITIVE_INTENSITY} if model in ("decay-offset", "recovery") else set()
+    groups = pad_groups(data, usable_mask(data.points["flag"].to_numpy(dtype=object), ignorable))
+    n_groups = groups.n
+    bar = Progress(progress, n_groups)
+    bar.set(0)
+    t_pad, y_pad, e_pad, w_pad, used, counts = groups.t, groups.y, groups.e, groups.w, groups.used, groups.counts
 
     values = np.full((n_groups, n_par), np.nan)
     errs = np.full((n_groups, n_par), np.nan)
     chi2 = np.full(n_groups, np.nan)
-    status = np.array(["ok"] * n_groups, dtype=object)
-    reasons: list[list[str]] = [[] for _ in range(n_groups)]
-
-    # Pre-fit checks.
-    with np.errstate(invalid="ignore"):
-        y_max = np.where(used, np.abs(y_pad), 0.0).max(axis=1)
-        y_range = np.where(used, y_pad, -np.inf).max(axis=1) - np.where(used, y_pad, np.inf).min(axis=1)
-    to_fit = np.zeros(n_groups, dtype=bool)
-    for g in range(n_groups):
-        if counts[g] < need:
-            status[g] = "bad-data" if n_excluded[g] else "too-few-points"
-            reasons[g].append(
-                f"{counts[g]} usable point{'s' if counts[g] != 1 else ''}; "
-                f"the {model!r} model needs at least {need}"
-            )
-        elif not y_range[g] > 1e-12 * y_max[g]:
-            status[g] = "failed"
-            reasons[g].append(
-                f"all {counts[g]} usable intensities are equal ({y_pad[g, 0]:g}): "
-                "a constant series has no decay to fit"
-            )
-        else:
-            to_fit[g] = True
+    status, reasons, to_fit = prefit_statuses(groups, need, f"the {model!r} model", "decay")
+    resampling = errors != "covariance"
+    if not resampling:
+        bar.set(int(np.sum(~to_fit)))
 
     engine_used = engine
     if model == "two-point":
@@ -564,17 +568,14 @@ def fit_decays(
         messages = {}
     else:
         converged, messages, engine_used = _fit_groups(
-            model, engine, to_fit, t_pad, y_pad, w_pad, used, scale, values, errs, chi2
+            model, engine, to_fit, groups, scale, values, errs, chi2, None if resampling else bar
         )
-
-    dof = counts - n_par
-    with np.errstate(divide="ignore", invalid="ignore"):
-        reduced = np.where((dof > 0) & np.isfinite(chi2), chi2 / dof, np.nan)
 
     # Resampled errors.
     draws_failed = np.zeros(n_groups, dtype=int)
     seed_used = seed
-    if errors != "covariance":
+    if resampling:
+        bar.set(int(np.sum(~(to_fit & converged))))
         seed_seq = np.random.SeedSequence(seed)
         seed_used = seed if seed is not None else int(seed_seq.entropy)
         children = seed_seq.spawn(n_groups)
@@ -582,64 +583,33 @@ def fit_decays(
         if model == "two-point" and not data.has_errors:
             rows = rows[:0]  # nothing to draw from: no errors given and no residuals
         new_errs, draws_failed_rows = _resampled_errors(
-            model, errors, n_draws, children, rows, t_pad, y_pad, e_pad, used, values, counts, data.has_errors
+            model, errors, n_draws, children, rows, groups, values, data.has_errors, bar
         )
         errs[rows] = new_errs
         draws_failed[rows] = draws_failed_rows
 
-    # Post-fit statuses.
-    for g in np.flatnonzero(to_fit):
-        if not converged[g]:
-            status[g] = "failed"
-            reasons[g].append(f"the fit did not converge{': ' + messages[g] if messages.get(g) else ''}")
-            values[g] = np.nan
-            errs[g] = np.nan
-            continue
-        judged = _JUDGED[model]
-        if errors == "covariance" and model != "two-point" and not np.all(np.isfinite(errs[g])):
-            status[g] = "failed"
-            reasons[g].append("the parameters are not determined (singular covariance at the optimum)")
-            values[g] = np.nan
-            errs[g] = np.nan
-            continue
-        notes = []
-        if errors != "covariance" and draws_failed[g] > n_draws // 2:
-            notes.append(f"only {n_draws - draws_failed[g]} of {n_draws} {errors} refits converged")
-        for j in judged:
-            v, e = values[g, j], errs[g, j]
-            if np.isfinite(e) and (v == 0 or e / abs(v) > MAX_RELATIVE_ERROR):
-                ratio = math.inf if v == 0 else e / abs(v)
-                rel = f"{100 * ratio:.0f}%" if ratio <= 10 else "above 1000%"
-                notes.append(f"relative error of {names[j]} is {rel} (> {100 * MAX_RELATIVE_ERROR:.0f}%)")
-        if values[g, 1] < 0:
-            notes.append(f"fitted rate is negative ({values[g, 1]:.4g} s^-1)")
-        if notes:
-            status[g] = "poorly-determined"
-            reasons[g] = notes + reasons[g]
-        if errors != "covariance" and 0 < draws_failed[g] <= n_draws // 2:
-            reasons[g].append(
-                f"{draws_failed[g]} of {n_draws} {errors} refits did not converge and were left out"
-            )
+    def negative_rate(g):
+        return [f"fitted rate is negative ({values[g, 1]:.4g} s^-1)"] if values[g, 1] < 0 else []
 
-    for g in range(n_groups):
-        if n_excluded[g]:
-            reasons[g].append(
-                f"{n_excluded[g]} point{'s' if n_excluded[g] != 1 else ''} excluded "
-                f"({'; '.join(excluded_notes[g])})"
-            )
-
-    table = pd.DataFrame({"residue": pd.Series([k[1] for k in uniques], dtype=object)})
-    if data.has_series:
-        table["series"] = [k[0] for k in uniques]
-    table["status"] = status
-    table["reason"] = ["; ".join(r) for r in reasons]
-    for j, name in enumerate(names):
-        table[name] = values[:, j]
-        table[f"{name}_err"] = errs[:, j]
-    table["reduced_chi2"] = reduced
-    table["n_points"] = counts
-    table["n_excluded"] = n_excluded
-
+    postfit_statuses(
+        status,
+        reasons,
+        values,
+        errs,
+        to_fit=to_fit,
+        converged=converged,
+        messages=messages,
+        errors=errors,
+        n_draws=n_draws,
+        draws_failed=draws_failed,
+        judged=_JUDGED[model],
+        names=names,
+        check_covariance=model != "two-point",
+        extra_notes=negative_rate,
+    )
+    note_exclusions(groups, reasons)
+    table = result_table(groups, data.has_series, status, reasons, names, values, errs, chi2, n_par)
+    problems = tuple(data.problems())
     global_info = {
         "source": data.source,
         "function": _FUNCTIONS[model],
@@ -653,11 +623,11 @@ def fit_decays(
         "seed": seed_used,
         "n_residues": int(n_groups),
         "status_counts": {s: int(np.sum(status == s)) for s in STATUSES},
-        "n_points_excluded": int(n_excluded.sum()),
+        "n_points_excluded": int(groups.n_excluded.sum()),
+        "problems": list(problems),
     }
-    problems = tuple(data.problems())
-    global_info["problems"] = list(problems)
-    return FitResult(model=model, table=table, global_info=global_info, problems=problems)
+    bar.finish()
+    return FitResult(model=model, table=table, global_info=global_info, problems=problems, data=data)
 
 
 def _two_point_amplitude(t1, i1, e1, t2, i2, e2, rate, have_errors):
@@ -671,8 +641,9 @@ def _two_point_amplitude(t1, i1, e1, t2, i2, e2, rate, have_errors):
         return amplitude, amplitude * sigma_ln
 
 
-def _fit_groups(model, engine, to_fit, t_pad, y_pad, w_pad, used, scale, values, errs, chi2):
+def _fit_groups(model, engine, to_fit, groups, scale, values, errs, chi2, bar):
     """Fit the selected groups in place; returns (converged, messages, engine description)."""
+    t_pad, y_pad, w_pad, used = groups.t, groups.y, groups.w, groups.used
     n_groups = t_pad.shape[0]
     converged = np.zeros(n_groups, dtype=bool)
     messages: dict[int, str] = {}
@@ -689,9 +660,11 @@ def _fit_groups(model, engine, to_fit, t_pad, y_pad, w_pad, used, scale, values,
         chi2[rows[ok]] = fit.chi2[ok]
         converged[rows[ok]] = True
         # lmfit gets the rows the batch did not converge, and those it left at a degenerate point.
-        retry = rows[~determined]
+        retry = rows[~determined] if engine == "auto" else rows[:0]
         for g, n in zip(rows[~ok], fit.n_iter[~ok]):
             messages[g] = f"Levenberg-Marquardt stopped after {n} iterations"
+        if bar is not None:
+            bar.advance(rows.size - retry.size)
     if engine in ("auto", "lmfit"):
         for g in retry:
             m = used[g]
@@ -702,6 +675,8 @@ def _fit_groups(model, engine, to_fit, t_pad, y_pad, w_pad, used, scale, values,
                 messages.pop(g, None)
             elif not converged[g]:
                 messages[g] = message
+            if bar is not None:
+                bar.advance()
     if engine == "auto":
         description = "batched" + (f" (+ lmfit for {used_lmfit} residues)" if used_lmfit else "")
     else:
@@ -709,10 +684,9 @@ def _fit_groups(model, engine, to_fit, t_pad, y_pad, w_pad, used, scale, values,
     return converged, messages, description
 
 
-def _resampled_errors(
-    model, method, n_draws, children, rows, t_pad, y_pad, e_pad, used, values, counts, has_errors
-):
+def _resampled_errors(model, method, n_draws, children, rows, groups, values, has_errors, bar):
     """Standard deviations of refits to synthetic data for the given groups: (errors, failed draws)."""
+    t_pad, y_pad, e_pad, used, counts = groups.t, groups.y, groups.e, groups.used, groups.counts
     n_par = values.shape[1]
     out = np.full((rows.size, n_par), np.nan)
     failed = np.zeros(rows.size, dtype=int)
@@ -730,21 +704,11 @@ def _resampled_errors(
         synthetic = np.zeros((k, n_draws, width))
         for i, g in enumerate(chunk):
             rng = np.random.default_rng(children[g])
-            n = counts[g]
             m = used[g]
-            if method == "monte-carlo":
-                if has_errors:
-                    sigma = e_pad[g, m]
-                else:
-                    resid = y_pad[g, m] - curve[i, m]
-                    sigma = np.full(n, math.sqrt(np.sum(resid**2) / (n - n_par)) if n > n_par else math.nan)
-                noise = rng.standard_normal((n_draws, n)) * sigma
-            else:
-                wg = w_c[i, m]
-                r = wg * (y_pad[g, m] - curve[i, m])
-                r = (r - r.mean()) * math.sqrt(n / (n - n_par))
-                noise = r[rng.integers(0, n, size=(n_draws, n))] / wg
-            synthetic[i, :, :n] = curve[i, m] + noise
+            noise = resampling_noise(
+                method, rng, y_pad[g, m], curve[i, m], e_pad[g, m], w_c[i, m], n_par, n_draws, has_errors
+            )
+            synthetic[i, :, : counts[g]] = curve[i, m] + noise
         if model == "two-point":
             last = counts[chunk] - 1
             i1 = synthetic[:, :, 0]
@@ -770,6 +734,7 @@ def _resampled_errors(
             failed[start + i] = n_draws - good.shape[0]
             if good.shape[0] >= 2:
                 out[start + i] = good.std(axis=0, ddof=1)
+        bar.advance(k)
     return out, failed
 
 
@@ -780,14 +745,4 @@ def _uncertainty_text(model, errors, n_draws, has_errors):
             if has_errors
             else "none: no intensity errors given and a two-point rate has no residuals"
         )
-    if errors == "covariance":
-        if has_errors:
-            return "covariance of the weighted fit, given errors taken as absolute"
-        return (
-            "covariance scaled by the reduced chi-square "
-            "(no error column: noise estimated from the residuals)"
-        )
-    noise = "the given errors" if has_errors else "the residual RMS sqrt(RSS/(n-p))"
-    if errors == "monte-carlo":
-        return f"standard deviation of {n_draws} refits of the best fit plus Gaussian noise of {noise}"
-    return f"standard deviation of {n_draws} refits of the best fit plus resampled residuals (bootstrap)"
+    return uncertainty_text(errors, n_draws, has_errors)

@@ -78,8 +78,8 @@ from scipy import stats
 
 from backbone.constants import Constant, larmor_hz
 from backbone.errors import BackboneError
-from backbone.fitting.data import RateTable, rates_from_frame, read_rates
-from backbone.fitting.series import MAX_RELATIVE_ERROR, STATUSES, _json_value
+from backbone.fitting.data import RateTable, field_groups, rates_from_frame, read_rates
+from backbone.fitting._shared import MAX_RELATIVE_ERROR, STATUSES, json_value
 from backbone.units import FIELD_MHZ, TAU_C_NS
 
 __all__ = [
@@ -97,6 +97,7 @@ __all__ = [
     "screen_residues",
     "fit_tau_c",
     "tumbling_verdict",
+    "expected_estimate",
 ]
 
 #: Model id of global τc fits (``model`` of the ``backbone fit --json`` output).
@@ -232,10 +233,12 @@ def _check_field(value, where):
 
 def _parts(table, proton_mhz):
     """(RateTable, field) pairs of the input."""
-    if isinstance(table, RateTable):
-        return [(table, _field_of(table, proton_mhz))]
     if isinstance(table, (str, Path)):
-        return [(t := read_rates(table), _field_of(t, proton_mhz))]
+        table = read_rates(table)
+    if isinstance(table, RateTable):
+        if "field_mhz" in table.table.columns:
+            return _split_by_field(table, proton_mhz)
+        return [(table, _field_of(table, proton_mhz))]
     if isinstance(table, pd.DataFrame):
         return _frame_parts(table, proton_mhz)
     if isinstance(table, Sequence) and table and all(isinstance(t, RateTable) for t in table):
@@ -254,6 +257,30 @@ def _parts(table, proton_mhz):
         "expected a RateTable, a pandas DataFrame, a file path or a list of RateTables (one per field), "
         f"got {type(table).__name__}"
     )
+
+
+def _split_by_field(rates: RateTable, proton_mhz):
+    """(RateTable, field) pairs of a table with a ``field_mhz`` column (rows without a field are dropped and
+    reported by the reader's flag)."""
+    if proton_mhz is not None:
+        raise BackboneError(f"{rates.source}: give the field once: a 'field_mhz' column or proton_mhz, not both")
+    frame = rates.table
+    fields = frame["field_mhz"].to_numpy(dtype=float)
+    finite = np.isfinite(fields)
+    if not finite.any():
+        raise BackboneError(f"{rates.source}: the 'field_mhz' column has no value")
+    if not finite.all():
+        lines = ", ".join(str(n) for n in frame["line"].to_numpy()[~finite][:5])
+        raise BackboneError(f"{rates.source}: 'field_mhz' is missing (line {lines})")
+    groups = field_groups(fields)
+    parts = []
+    for g in range(int(groups.max()) + 1):
+        mask = groups == g
+        f = float(np.mean(fields[mask]))
+        sub = frame[mask].drop(columns=["field_mhz"]).reset_index(drop=True)
+        source = rates.source if groups.max() == 0 else f"{rates.source} at {f:g} MHz"
+        parts.append((RateTable(table=sub, source=source, field_mhz=f), _check_field(f, source)))
+    return parts
 
 
 def _field_of(rates: RateTable, proton_mhz):
@@ -299,20 +326,10 @@ def _frame_parts(frame: pd.DataFrame, proton_mhz):
     FIELD_MHZ.check(values, where=f"{source} column 'field_mhz'")
     body = frame.drop(columns=[column]).reset_index(drop=True)
     body["line"] = np.arange(1, len(body) + 1)
-    # Values within 1 MHz of the lowest of a group are one field (spectrometers differ slightly from the nominal
-    # value); the group's mean is used.
-    unique = np.unique(values)
-    group = np.zeros(unique.size, dtype=int)
-    first = unique[0]
-    for k in range(1, unique.size):
-        if unique[k] - first > 1.0:
-            first = unique[k]
-            group[k] = group[k - 1] + 1
-        else:
-            group[k] = group[k - 1]
-    row_group = group[np.searchsorted(unique, values)]
+    # Values within 1 MHz of the lowest of a group are one field (data.field_groups); the group's mean is used.
+    row_group = field_groups(values)
     parts = []
-    for g in range(group[-1] + 1):
+    for g in range(int(row_group.max()) + 1):
         mask = row_group == g
         f = float(np.mean(values[mask]))
         sub = body[mask].reset_index(drop=True)
@@ -411,7 +428,7 @@ class Screening:
 
     def as_dict(self) -> dict:
         """JSON-ready summary (the rows themselves are in the fit's ``residues``)."""
-        return _json_value(
+        return json_value(
             {
                 "rule": self.rule,
                 "noe_min": self.noe_min,
@@ -673,7 +690,7 @@ class TumblingVerdict:
 
     def as_dict(self) -> dict:
         """Plain-data record."""
-        return _json_value(dict(self.__dict__))
+        return json_value(dict(self.__dict__))
 
 
 def tumbling_verdict(
@@ -823,9 +840,9 @@ class TauCFit:
         """JSON-ready ``{"model": "tau-c", "residues": [...], "global": {...}}`` (NaN written as ``None``)."""
         keys = [k for k in self.ROW_KEYS if k in self.table.columns]
         residues = [
-            {k: _json_value(v) for k, v in row.items()} for row in self.table[keys].to_dict(orient="records")
+            {k: json_value(v) for k, v in row.items()} for row in self.table[keys].to_dict(orient="records")
         ]
-        return {"model": MODEL_ID, "residues": residues, "global": _json_value(self.global_info)}
+        return {"model": MODEL_ID, "residues": residues, "global": json_value(self.global_info)}
 
 
 def _labeling(labeling):
@@ -949,8 +966,17 @@ def _least_squares(model, values, weights, x0, lo, hi, *, step=1e-5, max_iter=60
     return _Solution(x=x, chi2=chi2, jacobian=jac, rates=rates, converged=converged, n_iter=n_iter)
 
 
-def _expected_estimate(expected_tau_c, sequence, mass_da, temperature_k, solvent):
-    """TumblingEstimate of the expected τc, or None."""
+def expected_estimate(expected_tau_c=None, sequence=None, mass_da=None, temperature_k=None, solvent="H2O"):
+    """The expected τc as a TumblingEstimate, from one of: a given value [s] (or estimate), a sequence, a mass.
+
+    ``sequence`` (one-letter or FASTA) or ``mass_da`` [Da] need ``temperature_k`` [K] and ``solvent``
+    (:func:`backbone.relaxation.tumbling.estimate_tau_c`). Returns None when none of the three is given.
+
+    Raises
+    ------
+    BackboneError
+        More than one of the three given, or a sequence/mass without a temperature.
+    """
     candidates = (("expected_tau_c", expected_tau_c), ("sequence", sequence), ("mass_da", mass_da))
     given = [name for name, value in candidates if value is not None]
     if not given:
@@ -1043,7 +1069,7 @@ def fit_tau_c(
     u = _check_threshold("expected_rel_uncertainty", expected_rel_uncertainty, low=1e-6, high=1.0)
     options = _rate_options(rate_options)
     scheme = _labeling(labeling)
-    expected = _expected_estimate(expected_tau_c, sequence, mass_da, temperature_k, solvent)
+    expected = expected_estimate(expected_tau_c, sequence, mass_da, temperature_k, solvent)
     screening = screen_residues(table, proton_mhz=proton_mhz, noe_min=noe_min, ratio_sd=ratio_sd, noe_rigid=noe_rigid)
     frame = screening.table.copy()
     used = frame["used"].to_numpy(dtype=bool)
