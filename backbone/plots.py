@@ -21,7 +21,8 @@ from pathlib import Path
 import numpy as np
 
 from backbone.errors import BackboneError
-from backbone.sweep import delay_columns, write_atomically
+from backbone.output import write_atomically
+from backbone.sweep import delay_columns
 
 __all__ = ["PLOT_FORMATS", "plot_throughput_vs_tau_c", "plot_delays_vs_tau_c", "plot_walk", "walk_layout"]
 

@@ -59,7 +59,7 @@ def test_refuses_to_overwrite_without_force(tmp_path):
     result = fit_decays(_decays())
     path = tmp_path / "fits.png"
     path.write_bytes(b"keep me")
-    with pytest.raises(BackboneError, match="exists; pass force=True"):
+    with pytest.raises(BackboneError, match="exists; not overwriting"):
         plot_fits(result, path=path)
     assert path.read_bytes() == b"keep me"
     plot_fits(result, path=path, force=True)

@@ -21,13 +21,12 @@ backend, so importing this module costs nothing.
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
 from backbone.errors import BackboneError
+from backbone.output import write_atomically
 
 __all__ = ["FORMATS", "STATUS_COLORS", "plot_fits", "plot_tau_c", "plot_result"]
 
@@ -49,31 +48,17 @@ def _target(path, force) -> tuple[Path, str]:
     fmt = FORMATS.get(p.suffix.lower())
     if fmt is None:
         raise BackboneError(f"{p}: unknown figure format {p.suffix!r}; allowed extensions: {', '.join(FORMATS)}")
-    if p.exists() and not force:
-        raise BackboneError(f"{p}: the file exists; pass force=True to overwrite it")
-    if not p.parent.is_dir():
-        raise BackboneError(f"{p}: the folder {p.parent} does not exist")
     return p, fmt
 
 
-def _save(fig, path: Path, fmt: str) -> Path:
-    """Write whole or not at all: temporary file in the same folder, then os.replace."""
+def _save(fig, path: Path, fmt: str, force: bool) -> Path:
+    """Write whole or not at all, never over an existing file without ``force`` (:mod:`backbone.output`)."""
     import matplotlib.pyplot as plt
 
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    os.close(fd)
     try:
-        fig.savefig(tmp, format=fmt, dpi=150)
-        os.replace(tmp, path)
-    except BaseException as err:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        if isinstance(err, OSError):
-            raise BackboneError(f"{path}: cannot write the figure ({err.strerror or err})") from err
-        raise
+        return write_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=150), force=force, what="figure")
     finally:
         plt.close(fig)
-    return path
 
 
 def _pyplot():
@@ -214,7 +199,7 @@ def plot_fits(result, data=None, path=None, *, force: bool = False, max_panels: 
     summary = ", ".join(f"{k} {v}" for k, v in counts.items() if v)
     fig.suptitle(f"{result.model} fit of {result.global_info.get('source', '')}: {summary}", fontsize=9)
     fig.tight_layout()
-    return _save(fig, target, fmt)
+    return _save(fig, target, fmt, force)
 
 
 def plot_tau_c(result, path, *, force: bool = False) -> Path:
@@ -255,7 +240,7 @@ def plot_tau_c(result, path, *, force: bool = False) -> Path:
     head = f"tau_c {tau:.2f} ± {g.get('tau_c_err_ns', float('nan')):.2f} ns" if tau is not None and np.isfinite(tau) else "no tau_c"
     fig.suptitle(f"{head}" + (f": {message}" if message else ""), fontsize=9)
     fig.tight_layout()
-    return _save(fig, target, fmt)
+    return _save(fig, target, fmt, force)
 
 
 def _tau_c_panels(result, top, bottom):
