@@ -164,12 +164,162 @@ def _cmd_plan_scenario(args) -> int:
     from backbone.planning import plan_scenario, scenario_plan_table
     from backbone.scenario import load_scenario
 
+    from backbone.coverage import coverage_table, recommend, recommendation_text, walk_coverage
+
     scenario = load_scenario(args.scenario)
     result = plan_scenario(scenario, experiments=_experiment_list(args.experiment))
+    doc = result.as_dict()
+    rec = recommend(result) if result.has_times else None
+    coverage = walk_coverage(result)
+    doc["coverage"] = coverage.as_dict()
+    doc["recommendation"] = rec.as_dict() if rec is not None else None
+    if args.json:
+        print(json.dumps(doc, indent=2))
+        return 0
+    print(scenario_plan_table(result))
+    print()
+    if rec is not None:
+        print(recommendation_text(rec))  # includes where the walk breaks
+    else:
+        print("No recommendation: the scenario has no calibration, so no times to fit in the budget.\n")
+        print(coverage_table(coverage))
+    return 0
+
+
+def _progress_bar(label: str):
+    """A progress callback drawing one updating line on stderr (only when stderr is a terminal)."""
+    if not sys.stderr.isatty():
+        return None
+
+    def show(done: int, total: int) -> None:
+        width = 30
+        filled = int(width * done / max(total, 1))
+        sys.stderr.write(f"\r{label} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+    return show
+
+
+def _cmd_compare(args) -> int:
+    from backbone.compare import compare_scenario, comparison_table
+    from backbone.scenario import load_scenario
+
+    scenario = load_scenario(args.scenario)
+    comparison = compare_scenario(scenario, experiments=_experiment_list(args.experiment))
+    if args.plot:
+        from backbone.plots import plot_throughput_vs_tau_c
+
+        plot_throughput_vs_tau_c(comparison, args.plot, force=args.force)  # its crossovers and tau_c drawn in
+    if args.json:
+        print(json.dumps(comparison.as_dict(), indent=2))
+    else:
+        print(comparison_table(comparison))
+        if args.plot:
+            print(f"\nplot written to {args.plot}")
+    return 0
+
+
+def _cmd_sweep(args) -> int:
+    from backbone.sweep import parse_grid, sweep, write_table
+
+    tau_c = parse_grid(args.tau_c_grid, option="--tau-c")
+    fields = parse_grid(args.field_grid, option="--field")
+    labelings = [x.strip() for x in args.labeling.split(",") if x.strip()]
+    trosy = {"on": True, "off": False, "auto": "auto", "both": "both"}[args.trosy]
+    frame = sweep(
+        tau_c_ns=tau_c,
+        field_mhz=fields,
+        labelings=labelings,
+        experiments=_experiment_list(args.experiment),
+        trosy=trosy,
+        progress=_progress_bar("sweep"),
+    )
+    written = []
+    if args.out:
+        written.append(write_table(frame, args.out, force=args.force))
+    if args.plot_throughput:
+        from backbone.plots import plot_throughput_vs_tau_c
+
+        written.append(plot_throughput_vs_tau_c(frame, args.plot_throughput, force=args.force))
+    if args.plot_delays:
+        from backbone.plots import plot_delays_vs_tau_c
+
+        written.append(plot_delays_vs_tau_c(frame, args.plot_delays, force=args.force))
+    if args.json:
+        print(frame.to_json(orient="records"))
+    elif not written:
+        print(frame.to_string(index=False, max_rows=60))
+    for path in written if not args.json else ():
+        print(f"written: {path}")
+    return 0
+
+
+def _cmd_draw(args) -> int:
+    from backbone.experiments import load_experiment
+    from backbone.plots import plot_walk
+
+    conditions = _conditions_from_args(args)
+    path = plot_walk(
+        load_experiment(args.experiment),
+        args.out,
+        conditions=conditions,
+        trosy=args.trosy == "on",
+        delays=args.delays,
+        force=args.force,
+    )
+    print(f"written: {path}")
+    return 0
+
+
+def _cmd_fit(args) -> int:
+    from backbone.fitting.run import fit_table_text, run_fit
+
+    options = {}
+    if args.model in ("decay", "decay-offset", "recovery", "two-point", "buildup"):
+        options.update(errors=args.errors, progress=_progress_bar("fit"))
+        if args.errors != "covariance":
+            options.update(n_draws=args.draws, seed=args.seed)
+        if args.model == "buildup":
+            if args.j is None:
+                raise BackboneError("--model buildup needs --j HZ (the active coupling; add --fit-j to fit it)")
+            options.update(j_hz=args.j, fit_j=args.fit_j)
+    elif args.model in ("tau-c", "ratio"):
+        from backbone.units import temperature_to_kelvin
+
+        if args.sequence:
+            from backbone.graph import parse_sequence
+
+            options["sequence"] = parse_sequence(_read_text(args.sequence, "sequence file"), where=args.sequence)
+        options["temperature_k"] = temperature_to_kelvin(args.temperature, where="--temperature")
+        options["solvent"] = args.solvent
+        options["labeling"] = args.labeling
+        if args.model == "tau-c":
+            if args.field is not None:
+                options["proton_mhz"] = args.field
+        else:
+            if args.field is None or args.scale is None:
+                raise BackboneError(
+                    "--model ratio needs --field MHZ and --scale X (1 when both spectra were recorded on the same "
+                    "sample with the same scans, receiver gain and processing)"
+                )
+            options.update(field_mhz=args.field, scale=args.scale, trosy=args.trosy == "on")
+            if args.experiment:
+                options["experiments"] = _experiment_list(args.experiment)
+    result = run_fit(args.data, model=args.model, **options)
+    if args.csv:
+        from backbone.sweep import write_table
+
+        write_table(result.table, args.csv, force=args.force)
+    if args.plot:
+        from backbone.fitting.plots import plot_result
+
+        plot_result(result, args.plot, force=args.force)
     if args.json:
         print(json.dumps(result.as_dict(), indent=2))
     else:
-        print(scenario_plan_table(result))
+        print(fit_table_text(result))
     return 0
 
 
@@ -253,6 +403,59 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("experiment", nargs="?", metavar="EXPERIMENT", help="an experiment name or TOML file (default: every step kind)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
     p.set_defaults(func=_cmd_verify)
+
+    p = sub.add_parser("compare", help="labeling schemes x experiments x fields for a scenario, with crossover tau_c")
+    p.add_argument("scenario", metavar="SCENARIO", help="scenario file (TOML; see scenarios/README.md)")
+    p.add_argument("--experiment", metavar="NAME[,NAME...]", help="experiments to compare (default: the scenario's)")
+    p.add_argument("--plot", metavar="OUT", help="plot throughput against tau_c (PNG, SVG or PDF by extension)")
+    p.add_argument("--force", action="store_true", help="overwrite an existing output file")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_compare)
+
+    p = sub.add_parser("sweep", help="plan over grids of tau_c, field, labeling and experiments")
+    p.add_argument("--tau-c", dest="tau_c_grid", default="log:2:60:30", metavar="GRID",
+                   help="tau_c grid [ns]: start:stop:count, log:start:stop:count or a comma list (default log:2:60:30)")
+    p.add_argument("--field", dest="field_grid", default="600,800,950", metavar="GRID", help="fields [MHz], same forms (default 600,800,950)")
+    p.add_argument("--labeling", default="13c15n,2h13c15n", metavar="ID[,ID...]", help="labeling schemes (default 13c15n,2h13c15n)")
+    p.add_argument("--experiment", metavar="NAME[,NAME...]", help="experiments (default: every bundled one)")
+    p.add_argument("--trosy", default="off", choices=["on", "off", "auto", "both"], help="TROSY versions (default off)")
+    p.add_argument("--out", metavar="FILE", help="write the table (.csv or .json)")
+    p.add_argument("--plot-throughput", metavar="OUT", help="plot throughput against tau_c (PNG, SVG or PDF)")
+    p.add_argument("--plot-delays", metavar="OUT", help="plot optimal and textbook delays against tau_c")
+    p.add_argument("--force", action="store_true", help="overwrite existing output files")
+    p.add_argument("--json", action="store_true", help="print the table as JSON records")
+    p.set_defaults(func=_cmd_sweep)
+
+    p = sub.add_parser("draw-walk", help="draw an experiment's walk on the graph of two residues, edges labelled with step efficiencies")
+    p.add_argument("experiment", metavar="EXPERIMENT", help="experiment name or TOML file")
+    p.add_argument("out", metavar="OUT", help="figure file (PNG, SVG or PDF by extension)")
+    _add_condition_options(p)
+    p.add_argument("--trosy", default="off", choices=["on", "off"], help="TROSY version (default off)")
+    p.add_argument("--delays", default="optimal", choices=["optimal", "textbook"], help="delays the efficiencies are computed at")
+    p.add_argument("--force", action="store_true", help="overwrite an existing file")
+    p.set_defaults(func=_cmd_draw)
+
+    p = sub.add_parser("fit", help="fit measured intensities or rates: decays, build-ups, tau_c, experiment ratios")
+    p.add_argument("data", metavar="DATA", help="CSV/whitespace table or NMR-STAR file (see README: measured data)")
+    p.add_argument("--model", required=True, choices=["decay", "decay-offset", "recovery", "two-point", "buildup", "tau-c", "ratio"])
+    p.add_argument("--errors", default="covariance", choices=["covariance", "monte-carlo", "bootstrap"], help="parameter errors (default covariance)")
+    p.add_argument("--draws", type=int, default=200, help="Monte Carlo / bootstrap draws (10-10000, default 200)")
+    p.add_argument("--seed", type=int, help="random seed for Monte Carlo / bootstrap")
+    p.add_argument("--j", type=float, metavar="HZ", help="active coupling of a build-up [Hz]")
+    p.add_argument("--fit-j", action="store_true", help="fit the coupling of a build-up too")
+    p.add_argument("--field", type=float, metavar="MHZ", help="1H frequency [MHz] of the data (tau-c: if the file has no field_mhz column; ratio: required)")
+    p.add_argument("--labeling", default="15n", metavar="ID", help="labeling of the sample (tau-c, ratio; default 15n)")
+    p.add_argument("--sequence", metavar="FILE", help="sequence, for the tau_c expected from the size")
+    p.add_argument("--temperature", default="25", metavar="T", help="sample temperature (default 25 °C)")
+    p.add_argument("--solvent", default="H2O", choices=["H2O", "D2O"])
+    p.add_argument("--scale", type=float, metavar="X", help="ratio: known intensity scale between the two spectra (1 = same sample, scans, gain)")
+    p.add_argument("--experiment", metavar="A,B", help="ratio: numerator and denominator experiments")
+    p.add_argument("--trosy", default="off", choices=["on", "off"], help="ratio: TROSY versions")
+    p.add_argument("--csv", metavar="OUT", help="write the per-residue table as CSV")
+    p.add_argument("--plot", metavar="OUT", help="figure of data and fits (PNG, SVG or PDF)")
+    p.add_argument("--force", action="store_true", help="overwrite existing output files")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.set_defaults(func=_cmd_fit)
 
     p = sub.add_parser("labelings", help="list the bundled labeling schemes")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
