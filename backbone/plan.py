@@ -249,7 +249,7 @@ class PlanResult:
 
 def _variant(model, resolved, rates, scheme, G, residue, trosy, objective):
     """Optimized and textbook walks of one version (plain or TROSY) of one model."""
-    from backbone.experiments import objective_value, optimize_delays, peak_amplitudes, textbook_delays, walk
+    from backbone.experiments import objective_value, optimize_delays, textbook_delays, walk
 
     choice = optimize_delays(resolved, rates, objective=objective, trosy=trosy)
     tb = textbook_delays(resolved, objective=choice.objective if objective is not None else None, trosy=trosy)
@@ -257,8 +257,13 @@ def _variant(model, resolved, rates, scheme, G, residue, trosy, objective):
     w_tb = walk(model, G, residue, scheme, rates, delays=tb, trosy=trosy, resolved=resolved)
     shape = tuple(rates.shape)
     if resolved.feasible:
-        obj = objective_value(peak_amplitudes(resolved, rates, choice.delays, trosy=trosy), choice.objective)
-        obj_tb = objective_value(peak_amplitudes(resolved, rates, tb, trosy=trosy), choice.objective)
+        # The walks' signed throughputs times the declared signs are the unsigned pathway amplitudes the
+        # objective is defined on (peak_amplitudes), so the objective needs no further pass over the steps.
+        def amplitudes(w):
+            return {p.label: p.sign * p.throughput for p in w.peaks if p.feasible}
+
+        obj = objective_value(amplitudes(w_opt), choice.objective)
+        obj_tb = objective_value(amplitudes(w_tb), choice.objective)
     else:
         obj = obj_tb = np.zeros(shape)
     return {
@@ -359,7 +364,8 @@ def plan(
 
     reference = load_experiment(_REFERENCE)
     ref_resolved = resolve(reference, G, residue, scheme)
-    ref = _variant(reference, ref_resolved, rates, scheme, G, residue, False, None)["obj"] if ref_resolved.feasible else None
+    ref_variant = _variant(reference, ref_resolved, rates, scheme, G, residue, False, None)
+    ref = ref_variant["obj"] if ref_resolved.feasible else None
 
     plans = []
     for model in models:
@@ -370,7 +376,12 @@ def plan(
             modes = [False, True]
         else:
             modes = [bool(trosy) and model.trosy_capable]
-        variants = {m: _variant(model, resolved, rates, scheme, G, residue, m, objective) for m in modes}
+        variants = {
+            m: ref_variant
+            if model is reference and m is False and objective is None
+            else _variant(model, resolved, rates, scheme, G, residue, m, objective)
+            for m in modes
+        }
         if len(modes) == 2:
             better = variants[True]["obj"] > variants[False]["obj"]
             use_trosy = better if shape else bool(better)

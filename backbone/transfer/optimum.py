@@ -221,6 +221,15 @@ def optimal_delay(func, bounds, *, n_grid=257, rtol=1e-9, atol=1e-12, maximize=T
     step = (hi - lo) / (n - 1)
     a = lo + step * np.maximum(i - 1, 0)
     b = np.where(i + 1 >= n - 1, hi, lo + step * np.minimum(i + 1, n - 1))
+    tau, best = _golden(f, a, b, rtol, atol, max_iter)
+    return Optimum(tau, best if maximize else -best)
+
+
+def _golden(f, a, b, rtol, atol, max_iter, active=None):
+    """Vectorized golden-section maximization of f inside [a, b] (arrays of the condition shape) until the
+    bracket is below rtol·|τ| + atol; conditions with ``active`` False are left as they are (their result is
+    then meaningless, the caller ignores it). Returns (tau, value)."""
+    frozen = None if active is None else ~active
     c = b - _INV_PHI * (b - a)
     d = a + _INV_PHI * (b - a)
     fc, fd = f(c), f(d)
@@ -228,6 +237,8 @@ def optimal_delay(func, bounds, *, n_grid=257, rtol=1e-9, atol=1e-12, maximize=T
         # Conditions whose bracket is small enough stay as they are, so every condition's result is the one
         # it would have alone, whatever else is in the batch.
         active = b - a > rtol * np.maximum(np.abs(a), np.abs(b)) + atol
+        if frozen is not None:
+            active &= ~frozen
         if not np.any(active):
             break
         left = fc >= fd  # the maximum lies in [a, d]
@@ -241,9 +252,7 @@ def optimal_delay(func, bounds, *, n_grid=257, rtol=1e-9, atol=1e-12, maximize=T
         c, d = np.where(active, c1, c), np.where(active, d1, d)
         fc, fd = np.where(active, fc1, fc), np.where(active, fd1, fd)
     pick_c = fc >= fd
-    tau = np.where(pick_c, c, d)
-    best = np.where(pick_c, fc, fd)
-    return Optimum(tau, best if maximize else -best)
+    return np.where(pick_c, c, d), np.where(pick_c, fc, fd)
 
 
 def optimal_delays(func, bounds, *, n_grid=None, rtol=1e-7, atol=1e-12, maximize=True, max_iter=100):
@@ -379,7 +388,7 @@ def _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter):
     return x, fx
 
 
-def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, rtol=1e-7, atol=1e-12, max_iter=100):
+def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, n_grid=None, rtol=1e-7, atol=1e-12, max_iter=100):
     """:func:`optimal_delays` (default grid, maximizing) of the weakest of products of per-delay factors.
 
     The objective is min over k of ``fixed[k] · ∏_d axis_factors(d, τ_d)[k]`` (products in that order, the
@@ -389,9 +398,12 @@ def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, rtol=1e-7, a
     and every stencil need each factor only at n (grid) or 3 (stencil) values per delay instead of at all n^d
     or 3^d points; the values, and therefore the result, are those of :func:`optimal_delays` with the same
     objective written as one function. For callers that validated their inputs (bounds as given, no checks).
+
+    ``n_grid`` overrides the joint grid: an objective known to be jointly log-concave (hence unimodal; the
+    walk's weakest-peak objectives, :mod:`backbone.experiments.delays`) needs the grid only as a start.
     """
     d = len(bounds)
-    n = _JOINT_GRID[d]
+    n = _JOINT_GRID[d] if n_grid is None else int(n_grid)
     nd = len(shape)
     pad = (1,) * nd
     lo = np.stack([np.broadcast_to(np.asarray(b[0], dtype=float), shape) for b in bounds]).astype(float)
@@ -444,3 +456,88 @@ def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, rtol=1e-7, a
 
     x, fx = _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter)
     return JointOptimum(tuple(x[k] for k in range(d)), fx)
+
+
+#: Relative finite-difference step of the Newton search of :func:`_log_concave_maximum`.
+_FD_STEP = 1e-5
+#: Largest |d² log f/dτ²|·τ² the Newton search trusts as a smooth maximum (the objectives of the walk have
+#: O(1–10) there; a kink of a "weakest" objective inside the stencil gives ~1/_FD_STEP).
+_SMOOTH_CURVATURE = 1e3
+
+
+def _log_concave_maximum(func, lo, hi, *, start=None, rtol=1e-9, atol=1e-12, newton_iter=8, max_iter=200):
+    """Maximum of a function of one delay that is log-concave (hence unimodal) on [lo, hi], for an array of
+    conditions: no global grid, a safeguarded Newton search on log f from ``start`` with golden-section
+    fallback. For the walk's objectives, whose log-concavity on the first lobe is shown in
+    :mod:`backbone.experiments.delays`; arbitrary functions go through :func:`optimal_delay`.
+
+    Each iteration evaluates log f at τ−h, τ, τ+h (h = 1e-5·τ; one call with a leading axis of 3), narrows the
+    bracket [a, b] by unimodality (f(τ+h) > f(τ) puts the maximum right of τ, and so on) and takes the Newton
+    step of the three-point parabola where it is concave, falls inside the bracket and looks smooth
+    (|curvature|·τ² ≤ 1e3); otherwise it bisects the bracket. A condition is done when the Newton step is below
+    rtol·|τ| + atol [s] (the criterion of :func:`optimal_delay`'s golden section) or the bracket is; conditions
+    not done after ``newton_iter`` iterations (kinks of a "weakest" objective, where the maximum is a crossing
+    of two peaks) finish by golden section inside their bracket. Every condition's result is the one it would
+    have alone. Accuracy as :func:`optimal_delay`: τ to about 1e-9 relative for smooth maxima (the central
+    differences bias the Newton root by ~h²·|L'''/L''| ≈ 1e-10 relative), the bracket criterion at kinks.
+
+    func : callable, elementwise, broadcasting a leading axis of ``tau`` like :func:`optimal_delay`'s; NaN and
+    values ≤ 0 count as the worst. lo, hi : arrays or floats [s]; start : array [s] or None (mid-interval).
+    No argument checks (for callers that validated their inputs). Returns :class:`Optimum` (maximizing).
+    """
+    f = _objective(func, True)
+    shape = np.broadcast_shapes(f(0.5 * (np.asarray(lo) + np.asarray(hi))).shape, np.shape(lo), np.shape(hi))
+    lo = np.broadcast_to(np.asarray(lo, dtype=float), shape)
+    hi = np.broadcast_to(np.asarray(hi, dtype=float), shape)
+    a, b = lo.copy(), hi.copy()
+    x = 0.5 * (a + b) if start is None else np.broadcast_to(np.asarray(start, dtype=float), shape).copy()
+    margin = 1e-6 * (hi - lo)
+    x = np.clip(x, lo + margin, hi - margin)
+    done = np.zeros(shape, dtype=bool)
+    pending = np.zeros(shape, dtype=bool)
+    offsets = np.array([-1.0, 0.0, 1.0]).reshape((3,) + (1,) * len(shape))
+
+    def log_f(t):
+        v = f(t)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(v > 0, np.log(np.where(v > 0, v, 1.0)), -np.inf)
+
+    for _ in range(int(newton_iter)):
+        active = ~done
+        if not np.any(active):
+            break
+        h = np.minimum(_FD_STEP * np.abs(x) + atol, 0.5 * np.minimum(x - lo, hi - x))
+        h = np.where(h > 0, h, atol)
+        lm, l0, lp = log_f(x[None] + offsets * h[None])
+        # Unimodality narrows the bracket whatever the step.
+        right = lp > l0
+        left = lm > l0
+        centre = ~right & ~left & np.isfinite(l0)
+        a = np.where(active & right, np.maximum(a, x), a)
+        b = np.where(active & left & ~right, np.minimum(b, x), b)
+        a = np.where(active & centre, np.maximum(a, x - h), a)
+        b = np.where(active & centre, np.minimum(b, x + h), b)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            g = (lp - lm) / (2.0 * h)
+            curv = (lp - 2.0 * l0 + lm) / (h * h)
+            step = -g / curv
+            xn = x + step
+            smooth = np.isfinite(step) & (curv < 0) & (-curv * x * x <= _SMOOTH_CURVATURE)
+        inside = smooth & (xn > a) & (xn < b)
+        tol = rtol * np.abs(x) + atol
+        converged = inside & (np.abs(step) <= tol)
+        # A maximum inside the stencil that does not look smooth is a kink: the golden section finishes it
+        # inside the bracket [τ−h, τ+h] already found.
+        kink = active & centre & np.isfinite(l0) & ~smooth
+        x_next = np.where(inside, xn, 0.5 * (a + b))
+        tight = b - a <= rtol * np.maximum(np.abs(a), np.abs(b)) + atol
+        x = np.where(active, np.where(tight & ~inside, 0.5 * (a + b), x_next), x)
+        done |= active & (converged | tight)
+        pending |= kink & ~done
+        done |= pending
+    done &= ~pending
+    if not np.all(done):
+        # Golden section inside the narrowed bracket for the rest.
+        tg, _ = _golden(f, a, b, rtol, atol, max_iter, active=~done)
+        x = np.where(done, x, tg)
+    return Optimum(x, np.broadcast_to(f(x), shape).copy())
