@@ -5,8 +5,9 @@ at all (a temporary file in the same folder, then ``os.replace``), and refuses a
 ``force=True``. matplotlib is imported inside the functions and used through its object interface with the
 Agg canvas, so no global backend is switched and nothing opens a window.
 
-* :func:`plot_throughput_vs_tau_c` — objective throughput (or relative sensitivity) against τc per experiment
-  and labeling scheme, one panel per field, with crossovers marked and the scenario's τc as a vertical line;
+* :func:`plot_throughput_vs_tau_c` — S/N per √time (or objective throughput, or relative sensitivity) against
+  τc per experiment and labeling scheme, one panel per field, crossovers as markers (and in a table under the
+  panels), the scenario's τc as a vertical line, the legend outside the panels;
 * :func:`plot_delays_vs_tau_c` — each named delay at its optimum against τc beside its textbook value;
 * :func:`plot_walk` — the nuclei of residues i−1 and i with their couplings, the edges an experiment's steps use
   highlighted and labelled with each step's efficiency at the given conditions.
@@ -30,10 +31,17 @@ __all__ = ["PLOT_FORMATS", "plot_throughput_vs_tau_c", "plot_delays_vs_tau_c", "
 PLOT_FORMATS = {".png": "PNG", ".svg": "SVG", ".pdf": "PDF"}
 
 _QUANTITIES = {
+    "sensitivity_per_root_time": "S/N per sqrt(time), relative to the 13c15n HSQC",
     "objective_throughput": "objective throughput (1 = lossless enhanced transfer)",
     "relative_sensitivity": "sensitivity relative to the 2D 1H-15N HSQC",
 }
 _LINESTYLES = ("-", "--", ":", "-.")
+#: Crossover kinds in the order of the table columns, their marker (shape, face; None: the curve's color).
+_MARK_KINDS = ("deuteration", "trosy")
+_MARK_STYLE = {"deuteration": ("o", "white"), "trosy": ("^", None)}
+_MARK_LABEL = {"deuteration": "deuteration", "trosy": "TROSY"}
+#: Lowest y drawn, as a fraction of the largest value: curves that fall further are cut at the bottom.
+_Y_DECADES = 1e-4
 _COLORS = ("#1f5fa8", "#c0392b", "#2e8b57", "#8e44ad", "#d68910", "#17a2b8", "#6d4c41", "#7f8c8d", "#b03a7a")
 
 
@@ -94,21 +102,71 @@ def plot_throughput_vs_tau_c(
     *,
     scenario_tau_c_ns=None,
     crossovers=None,
-    quantity: str = "objective_throughput",
+    quantity: str | None = None,
     experiments: Sequence[str] | None = None,
+    crossover_table: bool = True,
     force: bool = False,
 ) -> Path:
-    """Throughput against τc, one panel per field: a line per experiment (color) and labeling/TROSY version
-    (line style), log axes. Crossovers [ns] are marked on the candidate's curve (×, labelled with their kind),
-    ``scenario_tau_c_ns`` is a vertical line.
+    """A quantity against τc, one panel per field (log axes, shared y): one color per experiment, one line style
+    per labeling/TROSY version. Crossovers are markers on the curve that pays off (no text on the axes; a circle
+    for deuteration, a triangle for TROSY), ``scenario_tau_c_ns`` a vertical line; the legend sits to the right
+    of the panels and, with ``crossover_table``, the crossover τc [ns] are listed in a compact table under them.
 
     ``frame_or_comparison``: a sweep frame (:func:`backbone.sweep.sweep`) or a
     :class:`backbone.compare.Comparison` (its curves, crossovers and τc are used unless given).
-    ``quantity``: ``"objective_throughput"`` or ``"relative_sensitivity"``. Returns the path written.
+    ``quantity``: ``"sensitivity_per_root_time"`` (S/N per √time against the 13c15n HSQC, the quantity the
+    crossovers are defined on; the default when the frame has it), ``"objective_throughput"`` (the default
+    otherwise) or ``"relative_sensitivity"``. Returns the path written.
     """
     path = _check_path(path, force)
-    if quantity not in _QUANTITIES:
-        raise BackboneError(f"plot: quantity {quantity!r} is not allowed; use {', '.join(_QUANTITIES)}")
+    fig = _throughput_figure(
+        frame_or_comparison, scenario_tau_c_ns=scenario_tau_c_ns, crossovers=crossovers, quantity=quantity,
+        experiments=experiments, crossover_table=crossover_table,
+    )
+    return _save(fig, path, force)
+
+
+def _curve_at(sel, quantity, tau):
+    """The quantity of one sorted curve interpolated (log-log) at τc ``tau``, or None."""
+    xs, ys = sel["tau_c_ns"].to_numpy(float), sel[quantity].to_numpy(float)
+    ok = np.isfinite(ys) & (ys > 0)
+    if ok.sum() < 2:
+        return None
+    return float(np.exp(np.interp(np.log(tau), np.log(xs[ok]), np.log(ys[ok]))))
+
+
+def _marked_curve(at, name, kind):
+    """Rows of the curve a crossover of ``kind`` is marked on: the perdeuterated plain one (deuteration) or its
+    TROSY version (TROSY)."""
+    want = at[(at["experiment"] == name) & (at["labeling"].str.startswith("2h"))]
+    if kind == "trosy":
+        want = want[want["trosy"]]
+    elif kind == "deuteration" and (~want["trosy"]).any():
+        want = want[~want["trosy"]]
+    if want.empty:
+        return None
+    (_, sel), *_ = list(want.groupby(["labeling", "trosy"], sort=False))
+    return sel.sort_values("tau_c_ns")
+
+
+def _crossover_rows(marks, names, fields):
+    """Cell text of the crossover table: one row per experiment, a deuteration and a TROSY column per field."""
+    value = {(k, n, f): t for k, n, f, t in marks}
+    body = []
+    for n in names:
+        row = []
+        for f in fields:
+            for kind in _MARK_KINDS:
+                t = value.get((kind, n, f))
+                row.append("-" if t is None else f"{t:.3g}")
+        body.append(row)
+    return body
+
+
+def _throughput_figure(
+    frame_or_comparison, *, scenario_tau_c_ns=None, crossovers=None, quantity=None, experiments=None,
+    crossover_table=True,
+):
     frame = frame_or_comparison
     if hasattr(frame_or_comparison, "curves") and hasattr(frame_or_comparison, "crossovers"):
         comp = frame_or_comparison
@@ -117,6 +175,10 @@ def plot_throughput_vs_tau_c(
         scenario_tau_c_ns = comp.tau_c_ns if scenario_tau_c_ns is None else scenario_tau_c_ns
     if frame is None or not hasattr(frame, "columns"):
         raise BackboneError("plot: give a sweep table (pandas DataFrame) or a Comparison")
+    if quantity is None:
+        quantity = "sensitivity_per_root_time" if "sensitivity_per_root_time" in frame.columns else "objective_throughput"
+    if quantity not in _QUANTITIES:
+        raise BackboneError(f"plot: quantity {quantity!r} is not allowed; use {', '.join(_QUANTITIES)}")
     _need_columns(frame, ("experiment", "trosy", "labeling", "field_mhz", "tau_c_ns", quantity), "plot")
     if experiments is not None:
         wanted = {e.upper() for e in experiments}
@@ -124,57 +186,86 @@ def plot_throughput_vs_tau_c(
     frame = frame[frame["feasible"]] if "feasible" in frame.columns else frame
     if frame.empty:
         raise BackboneError("plot: nothing to draw (no feasible rows for the experiments asked for)")
-    fields = sorted(frame["field_mhz"].unique())
+    fields = sorted(float(f) for f in frame["field_mhz"].unique())
     names = list(dict.fromkeys(frame["experiment"]))
     versions = list(dict.fromkeys(zip(frame["labeling"], frame["trosy"])))
     color = {n: _COLORS[k % len(_COLORS)] for k, n in enumerate(names)}
     style = {v: _LINESTYLES[k % len(_LINESTYLES)] for k, v in enumerate(versions)}
-    marks = _crossover_points(crossovers)
+    marks = [m for m in _crossover_points(crossovers) if m[1] in color and m[2] in fields]
 
-    fig = _figure(5.0 * len(fields), 4.2)
-    axes = fig.subplots(1, len(fields), squeeze=False)[0]
-    for ax, f in zip(axes, fields):
+    from matplotlib.lines import Line2D
+
+    table = crossover_table and bool(marks)
+    n_rows = len(names) + 1
+    table_h = 0.22 * n_rows + 0.3 if table else 0.0
+    fig = _figure(4.2 * len(fields) + 2.6, 3.9 + table_h)
+    grid = fig.add_gridspec(2 if table else 1, len(fields), height_ratios=[3.9, table_h] if table else None,
+                            hspace=0.32, wspace=0.08)
+    axes = [fig.add_subplot(grid[0, 0])]
+    axes += [fig.add_subplot(grid[0, j], sharey=axes[0]) for j in range(1, len(fields))]
+    values = frame[quantity].to_numpy(float)
+    positive = values[np.isfinite(values) & (values > 0)]
+    top = float(positive.max()) if positive.size else 1.0
+    bottom = max(float(positive.min()) if positive.size else 1e-4, top * _Y_DECADES)
+    for j, (ax, f) in enumerate(zip(axes, fields)):
         at = frame[frame["field_mhz"] == f]
         for (name, lab, trosy), sel in at.groupby(["experiment", "labeling", "trosy"], sort=False):
             sel = sel.sort_values("tau_c_ns")
             y = sel[quantity].to_numpy(dtype=float)
-            x = sel["tau_c_ns"].to_numpy(dtype=float)
-            ok = y > 0
-            if not ok.any():
-                continue
-            label = f"{name}, {lab}{' TROSY' if trosy else ''}"
-            ax.plot(x[ok], y[ok], color=color[name], linestyle=style[(lab, trosy)], linewidth=1.5, label=label)
+            ok = np.isfinite(y) & (y > 0)
+            if ok.any():
+                ax.plot(sel["tau_c_ns"].to_numpy(float)[ok], y[ok], color=color[name], linestyle=style[(lab, trosy)],
+                        linewidth=1.4)
         for kind, name, fm, tau in marks:
-            if fm != f or name not in color:
-                continue
-            # Mark on the curve that pays off: the perdeuterated plain one (deuteration) or its TROSY one.
-            want = at[(at["experiment"] == name) & (at["labeling"].str.startswith("2h"))]
-            if kind == "trosy":
-                want = want[want["trosy"]]
-            elif kind == "deuteration":
-                want = want[~want["trosy"]] if (~want["trosy"]).any() else want
-            if want.empty:
-                continue
-            (_, sel), *_ = list(want.groupby(["labeling", "trosy"]))
-            sel = sel.sort_values("tau_c_ns")
-            xs, ys = sel["tau_c_ns"].to_numpy(float), sel[quantity].to_numpy(float)
-            ok = ys > 0
-            if ok.sum() < 2:
-                continue
-            yv = float(np.exp(np.interp(np.log(tau), np.log(xs[ok]), np.log(ys[ok]))))
-            ax.plot([tau], [yv], marker="x", markersize=9, markeredgewidth=2, color=color[name], linestyle="none")
-            ax.annotate(f"{kind} {tau:.3g} ns", (tau, yv), textcoords="offset points", xytext=(4, 6), fontsize=7, color=color[name])
+            sel = _marked_curve(at, name, kind) if fm == f else None
+            yv = None if sel is None else _curve_at(sel, quantity, tau)
+            if yv is not None:
+                marker, face = _MARK_STYLE[kind]
+                ax.plot([tau], [yv], marker=marker, markersize=7, markerfacecolor=face or color[name],
+                        markeredgecolor=color[name], markeredgewidth=1.4, linestyle="none", zorder=5)
         if scenario_tau_c_ns is not None:
-            ax.axvline(float(scenario_tau_c_ns), color="0.35", linewidth=1.0, linestyle="--",
-                       label=f"scenario tau_c {float(scenario_tau_c_ns):.3g} ns")
+            ax.axvline(float(scenario_tau_c_ns), color="0.3", linewidth=1.0, linestyle=(0, (5, 2, 1, 2)), zorder=1)
         ax.set_xscale("log")
         ax.set_yscale("log")
-        ax.set_xlabel("rotational correlation time tau_c [ns]")
-        ax.set_ylabel(_QUANTITIES[quantity])
-        ax.set_title(f"{f:g} MHz (1H)")
+        ax.set_ylim(bottom, top * 1.6)
+        ax.set_xlabel("tau_c [ns]")
+        if j == 0:
+            ax.set_ylabel(_QUANTITIES[quantity])
+        else:
+            ax.tick_params(labelleft=False)
+        ax.set_title(f"{f:g} MHz (1H)", fontsize=10)
         ax.grid(True, which="major", linewidth=0.3, alpha=0.5)
-    axes[-1].legend(fontsize=7, loc="best")
-    return _save(fig, path, force)
+
+    def version_label(lab, trosy):
+        return f"{lab}{', TROSY' if trosy else ''}"
+
+    handles = [Line2D([], [], color=color[n], linewidth=2.2, label=n) for n in names]
+    handles.append(Line2D([], [], linestyle="none", label=" "))
+    handles += [Line2D([], [], color="0.2", linestyle=style[v], linewidth=1.4, label=version_label(*v)) for v in versions]
+    kinds = [k for k in _MARK_KINDS if any(m[0] == k for m in marks)]
+    if kinds or scenario_tau_c_ns is not None:
+        handles.append(Line2D([], [], linestyle="none", label=" "))
+    for k in kinds:
+        marker, face = _MARK_STYLE[k]
+        handles.append(Line2D([], [], marker=marker, markersize=7, markerfacecolor=face or "0.2", markeredgecolor="0.2",
+                              linestyle="none", label=f"{_MARK_LABEL[k]} crossover"))
+    if scenario_tau_c_ns is not None:
+        handles.append(Line2D([], [], color="0.3", linewidth=1.0, linestyle=(0, (5, 2, 1, 2)),
+                              label=f"scenario tau_c {float(scenario_tau_c_ns):.3g} ns"))
+    axes[-1].legend(handles=handles, fontsize=8, loc="upper left", bbox_to_anchor=(1.03, 1.0), borderaxespad=0.0,
+                    frameon=False)
+    if table:
+        tab = fig.add_subplot(grid[1, :])
+        tab.set_axis_off()
+        columns = [f"{f:g} {_MARK_LABEL[k]}" for f in fields for k in _MARK_KINDS]
+        width = min(0.9, 0.11 * len(columns) + 0.1)
+        t = tab.table(cellText=_crossover_rows(marks, names, fields), rowLabels=names, colLabels=columns,
+                      cellLoc="center", bbox=[0.5 - width / 2 + 0.05, 0.0, width, 1.0])
+        t.auto_set_font_size(False)
+        t.set_fontsize(8)
+        tab.set_title("crossover tau_c [ns] by field [MHz] (-: none in the grid; reasons in the text output)",
+                      fontsize=8.5, pad=3)
+    return fig
 
 
 # ---------------------------------------------------------------------------------------------------------

@@ -127,3 +127,36 @@ def test_nothing_written_on_failure(frame, tmp_path, monkeypatch):
     with pytest.raises(BackboneError, match="could not be written"):
         plot_throughput_vs_tau_c(frame, tmp_path / "t.png")
     assert not list(tmp_path.iterdir())
+
+
+def test_throughput_figure_layout(frame):
+    # Readability of the figure: the legend lies outside every panel, crossovers are markers without text on the
+    # axes, the scenario's tau_c is a vertical line, and the crossovers are listed in a table under the panels.
+    from matplotlib.table import Table
+
+    from backbone.plots import _throughput_figure
+
+    frame = frame.assign(field_mhz=800.0)
+    two = pd.concat([frame, frame.assign(field_mhz=900.0)], ignore_index=True)
+    fig = _throughput_figure(
+        two, scenario_tau_c_ns=15.0,
+        crossovers=[{"kind": "deuteration", "experiment": "HNCA", "field_mhz": f, "tau_c_ns": 9.0} for f in (800.0, 900.0)],
+    )
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    panels = [ax for ax in fig.axes if ax.get_xscale() == "log"]
+    assert len(panels) == 2
+    legend = panels[-1].get_legend()
+    box = legend.get_window_extent(renderer)
+    assert all(not box.overlaps(ax.get_window_extent(renderer)) for ax in panels)
+    for ax in panels:
+        assert not ax.texts  # no text labels on the axes
+        markers = [ln for ln in ax.lines if ln.get_marker() == "o" and ln.get_linestyle() == "None"]
+        assert len(markers) == 1 and markers[0].get_xdata()[0] == 9.0
+        assert any(list(ln.get_xdata()) == [15.0, 15.0] for ln in ax.lines)  # axvline
+        # One color per experiment, one line style per labeling.
+        curves = [ln for ln in ax.lines if ln.get_linestyle() not in ("None",) and len(ln.get_xdata()) > 2]
+        assert len({ln.get_color() for ln in curves}) == 1 and len({ln.get_linestyle() for ln in curves}) == 2
+    assert any(isinstance(c, Table) for ax in fig.axes for c in ax.get_children())
+    # Without the per-time column the default quantity is the objective throughput.
+    assert panels[0].get_ylabel().startswith("objective throughput")
