@@ -358,27 +358,35 @@ def read_decays(path) -> DecayData:
     return _validate_decays(frame, source, "line")
 
 
-def decays_from_frame(frame: pd.DataFrame, *, source: str = "<table>") -> DecayData:
-    """Validate a DataFrame with the columns of :func:`read_decays` (names case-insensitive).
-
-    Messages name ``row`` numbers starting at 1.
-    """
+def _canonical_frame(frame, columns: dict, allowed: str, source: str, what: str, *, keep=()) -> pd.DataFrame:
+    """``frame`` with its columns renamed to their canonical names (case-insensitive), and a 1-based ``line``
+    column when it has none; unknown or repeated columns and an empty table raise :class:`BackboneError`."""
     if not isinstance(frame, pd.DataFrame):
-        raise BackboneError(
-            f"{source}: expected a pandas DataFrame of decay points, got {type(frame).__name__}"
-        )
+        raise BackboneError(f"{source}: expected a pandas DataFrame of {what}, got {type(frame).__name__}")
     renamed = {}
     for name in frame.columns:
-        canonical = _DECAY_COLUMNS.get(str(name).strip().lower())
+        canonical = columns.get(str(name).strip().lower())
+        if canonical is None and str(name) in keep:
+            canonical = str(name)
         if canonical is None:
-            raise BackboneError(f"{source}: unknown column {name!r}; allowed columns: {_DECAY_ALLOWED}")
+            raise BackboneError(f"{source}: unknown column {name!r}; allowed columns: {allowed}")
         if canonical in renamed.values():
             raise BackboneError(f"{source}: column {name!r} appears twice")
         renamed[name] = canonical
     if frame.empty:
         raise BackboneError(f"{source}: no data rows")
     table = frame.rename(columns=renamed).reset_index(drop=True)
-    table["line"] = np.arange(1, len(table) + 1)
+    if "line" not in table.columns:
+        table["line"] = np.arange(1, len(table) + 1)
+    return table
+
+
+def decays_from_frame(frame: pd.DataFrame, *, source: str = "<table>") -> DecayData:
+    """Validate a DataFrame with the columns of :func:`read_decays` (names case-insensitive).
+
+    Messages name ``row`` numbers starting at 1.
+    """
+    table = _canonical_frame(frame, _DECAY_COLUMNS, _DECAY_ALLOWED, source, "decay points")
     return _validate_decays(table, source, "row")
 
 
@@ -459,19 +467,9 @@ def rates_from_frame(
     frame: pd.DataFrame, *, source: str = "<table>", field_mhz: float | None = None
 ) -> RateTable:
     """Validate a DataFrame with the columns of :func:`read_rates` (names case-insensitive)."""
-    renamed = {}
-    for name in frame.columns:
-        canonical = _RATE_COLUMNS.get(str(name).strip().lower())
-        if canonical is None and str(name) in ("line", "flag", "residue_name"):
-            canonical = str(name)
-        if canonical is None:
-            raise BackboneError(f"{source}: unknown column {name!r}; allowed columns: {_RATE_ALLOWED}")
-        renamed[name] = canonical
-    if frame.empty:
-        raise BackboneError(f"{source}: no data rows")
-    table = frame.rename(columns=renamed).reset_index(drop=True)
-    if "line" not in table.columns:
-        table["line"] = np.arange(1, len(table) + 1)
+    table = _canonical_frame(
+        frame, _RATE_COLUMNS, _RATE_ALLOWED, source, "rates", keep=("line", "flag", "residue_name")
+    )
     return _validate_rates(table, source, "row", field_mhz=field_mhz)
 
 
@@ -812,20 +810,7 @@ def read_intensities(path) -> IntensityTable:
 
 def intensities_from_frame(frame: pd.DataFrame, *, source: str = "<table>") -> IntensityTable:
     """Validate a DataFrame with the columns of :func:`read_intensities` (names case-insensitive)."""
-    if not isinstance(frame, pd.DataFrame):
-        raise BackboneError(f"{source}: expected a pandas DataFrame of intensities, got {type(frame).__name__}")
-    renamed = {}
-    for name in frame.columns:
-        canonical = _INTENSITY_COLUMNS.get(str(name).strip().lower())
-        if canonical is None:
-            raise BackboneError(f"{source}: unknown column {name!r}; allowed columns: {_INTENSITY_ALLOWED}")
-        if canonical in renamed.values():
-            raise BackboneError(f"{source}: column {name!r} appears twice")
-        renamed[name] = canonical
-    if frame.empty:
-        raise BackboneError(f"{source}: no data rows")
-    table = frame.rename(columns=renamed).reset_index(drop=True)
-    table["line"] = np.arange(1, len(table) + 1)
+    table = _canonical_frame(frame, _INTENSITY_COLUMNS, _INTENSITY_ALLOWED, source, "intensities")
     return _validate_intensities(table, source, "row")
 
 
