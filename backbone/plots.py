@@ -200,7 +200,7 @@ def _throughput_figure(
     table_h = 0.22 * n_rows + 0.3 if table else 0.0
     fig = _figure(4.2 * len(fields) + 2.6, 3.9 + table_h)
     grid = fig.add_gridspec(2 if table else 1, len(fields), height_ratios=[3.9, table_h] if table else None,
-                            hspace=0.32, wspace=0.08)
+                            hspace=0.55, wspace=0.08)
     axes = [fig.add_subplot(grid[0, 0])]
     axes += [fig.add_subplot(grid[0, j], sharey=axes[0]) for j in range(1, len(fields))]
     values = frame[quantity].to_numpy(float)
@@ -542,7 +542,7 @@ def plot_walk(
         x, y = pos[node]
         ax.annotate(text(entries), (x, y), xytext=(0, -26 if y <= 0 else 22), textcoords="offset points",
                     fontsize=6.5, color="#1a5276", ha="center", va="center")
-    tp = ", ".join(f"{p.label} {float(np.asarray(p.throughput)):+.3f}" for p in result.peaks if p.feasible)
+    tp = ", ".join(f"{p.label} {float(np.asarray(p.throughput)):+.3g}" for p in result.peaks if p.feasible)
     ax.set_title(
         f"{model.name}{' TROSY' if trosy else ''} on {resolved.resname}{residue} (and residue {residue - 1}), "
         f"{resolved.labeling}, tau_c {tau_c * 1e9:.3g} ns, {mhz:g} MHz, {delays} delays\nthroughput: {tp}",
