@@ -638,8 +638,9 @@ def plan_matrix(
         2–60 ns; about 98 % of the rows within 1e-6). For CBCA(CO)NH the interpolated delays can also come out
         up to 1.1e-4 ABOVE the exact search, whose joint τ_CH/τ_CC ridge search does not always end at the
         global optimum (see :mod:`backbone.experiments.delays`). Requests with no more distinct τc values
-        than nodes are computed exactly. On large grids the labeling schemes run on two threads. Cost: about 2.5 s for
-        the 200-τc matrix and about 3× that for 100× the τc values (tests/benchmarks/bench_matrix.py).
+        than nodes are computed exactly. On large grids the labeling schemes run on two threads. Cost: about 1.1 s for
+        the 200-τc matrix (exact mode about 1.5 s) and about 4.5× that for 100× the τc values
+        (tests/benchmarks/bench_matrix.py).
 
     Returns
     -------

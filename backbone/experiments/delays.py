@@ -53,7 +53,7 @@ import numpy as np
 
 from backbone.errors import BackboneError
 from backbone.experiments.model import OBJECTIVES
-from backbone.experiments.walk import NoRelaxation, ResolvedWalk, _mode, _rate, segment_amplitude
+from backbone.experiments.walk import NoRelaxation, ResolvedWalk, _mode, _rate, _segment_amplitude
 from backbone.transfer import optimal_inept_delay, optimal_transfer_delay
 from backbone.transfer.optimum import _log_concave_maximum, _weakest_product_optimum
 
@@ -229,6 +229,25 @@ def _start(segments, rates, trosy, bounds):
     return None
 
 
+class _RateSubset:
+    """The coherence rates of the conditions at the flat indices ``idx`` of a RateSet's shape, as a 1-D condition
+    grid (what the walk's segment amplitudes read: ``coherence`` and ``shape``); for the joint delay search."""
+
+    def __init__(self, rates, idx):
+        self._rates = rates
+        self._idx = idx
+        self._full = tuple(rates.shape)
+        self.shape = (idx.size,)
+        self._memo: dict = {}
+
+    def coherence(self, name):
+        value = self._memo.get(name)
+        if value is None:
+            full = np.broadcast_to(np.asarray(self._rates.coherence(name), dtype=float), self._full)
+            value = self._memo[name] = full.reshape(-1)[self._idx]
+        return value
+
+
 def optimize_delays(
     resolved: ResolvedWalk, rates, *, objective: str | None = None, trosy=False, sensitivity_enhanced=None
 ) -> DelayChoice:
@@ -246,12 +265,12 @@ def optimize_delays(
         return DelayChoice(MappingProxyType({}), obj, MappingProxyType({}))
     targets = [resolved.peak(obj)] if obj not in OBJECTIVES else list(peaks)
 
-    def amp(rs, tau):
-        return segment_amplitude(rs, tau, rates, trosy=trosy, sensitivity_enhanced=se)
+    def amp(rs, tau, r=rates):
+        return _segment_amplitude(rs, tau, r, trosy, se, False)
 
     # Pathways of different peaks often pass the same segment (same step, pair and couplings): within one
     # evaluation of an objective its amplitude is computed once (``cache``, keyed by segment and delay).
-    def factor(p, d, tau, cache=None):
+    def factor(p, d, tau, cache=None, r=rates):
         cache = {} if cache is None else cache
         out = 1.0
         for rs in p.segments:
@@ -259,7 +278,7 @@ def optimize_delays(
                 key = (rs.signature, d)
                 value = cache.get(key)
                 if value is None:
-                    value = cache[key] = amp(rs, tau)
+                    value = cache[key] = amp(rs, tau, r)
                 out = out * value
         return out
 
@@ -301,18 +320,26 @@ def optimize_delays(
         if common or mode not in ("geometric-mean",):
             p0 = users[0]
 
-            def func(tau, p0=p0, d=d):
-                return factor(p0, d, tau)
+            def func(tau, p0=p0, d=d, r=rates):
+                return factor(p0, d, tau, None, r)
 
         else:
 
-            def func(tau, users=users, d=d):
+            def func(tau, users=users, d=d, r=rates):
                 out, cache = 1.0, {}
                 for p in users:
-                    out = out * np.maximum(factor(p, d, tau, cache), 0.0)
+                    out = out * np.maximum(factor(p, d, tau, cache, r), 0.0)
                 return out ** (1.0 / len(users))
 
-        delays[d] = _log_concave_maximum(func, *bounds, start=_start(segs, rates, trosy, bounds)).tau
+        def subset(idx, cond_shape, func=func):
+            if tuple(cond_shape) != shape:
+                return None
+            sub = _RateSubset(rates, idx)
+            return lambda tau: func(tau, r=sub)
+
+        delays[d] = _log_concave_maximum(
+            func, *bounds, start=_start(segs, rates, trosy, bounds), subset=subset if shape else None
+        ).tau
         methods[d] = "alone (numerical)"
         if len(_SHARED) >= _SHARED_SIZE:
             _SHARED.clear()
@@ -327,12 +354,12 @@ def optimize_delays(
                 f"{_MAX_JOINT} are supported"
             )
 
-        def joint_func(*taus):
+        def joint_func(*taus, r=rates, fixed=fixed):
             out, cache = None, {}
             for p in users:
                 v = fixed[p.label]
                 for d, tau in zip(names, taus):
-                    v = v * factor(p, d, tau, cache)
+                    v = v * factor(p, d, tau, cache, r)
                 out = v if out is None else np.minimum(out, v)
             return out
 
@@ -340,7 +367,19 @@ def optimize_delays(
         if len(names) == 1:
             segs = [rs for rs in users[0].segments if rs.delay == names[0]]
             start = _start(segs, rates, trosy, bounds[0])
-            delays[names[0]] = _log_concave_maximum(joint_func, *bounds[0], start=start).tau
+
+            def joint_subset(idx, cond_shape):
+                if tuple(cond_shape) != shape:
+                    return None
+                sub = _RateSubset(rates, idx)
+                sub_fixed = {
+                    k: np.broadcast_to(np.asarray(v, dtype=float), shape).reshape(-1)[idx] for k, v in fixed.items()
+                }
+                return lambda tau: joint_func(tau, r=sub, fixed=sub_fixed)
+
+            delays[names[0]] = _log_concave_maximum(
+                joint_func, *bounds[0], start=start, subset=joint_subset if shape else None
+            ).tau
             methods[names[0]] = "alone (numerical, weakest peak)"
         else:
             # The objective is min_k(fixed_k × ∏_d factor_k,d(τ_d)): the separable form of optimal_delays
@@ -349,8 +388,24 @@ def optimize_delays(
                 cache: dict = {}
                 return [factor(p, names[a], tau, cache) for p in users]
 
+            subsets: dict = {}
+
+            def subset_factors(a, tau, idx):
+                key = (idx.size, idx.tobytes())
+                sub = subsets.get(key)
+                if sub is None:
+                    subsets.clear()
+                    sub = subsets[key] = _RateSubset(rates, idx)
+                cache: dict = {}
+                return [factor(p, names[a], tau, cache, sub) for p in users]
+
             res = _weakest_product_optimum(
-                axis_factors, [fixed[p.label] for p in users], bounds, shape, n_grid=_JOINT_START_GRID
+                axis_factors,
+                [fixed[p.label] for p in users],
+                bounds,
+                shape,
+                n_grid=_JOINT_START_GRID,
+                subset_factors=subset_factors,
             )
             for d, tau in zip(names, res.taus):
                 delays[d] = tau

@@ -82,6 +82,7 @@ from backbone.transfer import (
     semi_constant_time_factor,
     transfer_amplitudes,
 )
+from backbone.transfer.steps import _branch_transferred_unchecked, _cos_unchecked, _transfer_unchecked
 
 __all__ = [
     "TYPICAL_SEQUENCE",
@@ -426,11 +427,12 @@ def _resolve_peak(model: ExperimentModel, G, residue: int, scheme, peak) -> Reso
 # ---------------------------------------------------------------------------------------------------------
 
 
-def _passive(tau, couplings) -> np.ndarray:
+def _passive(tau, couplings, checked: bool = True) -> np.ndarray:
     """∏ (f cos(πJτ) + 1 − f) over (|J|, f): the isotopomer average of the passive cos factors."""
     out = 1.0
     for j, f in couplings:
-        out = out * (f * passive_factor(tau, (j,)) + (1.0 - f))
+        c = passive_factor(tau, (j,)) if checked else _cos_unchecked(tau, j)
+        out = out * (f * c + (1.0 - f))
     return np.asarray(out, dtype=float)
 
 
@@ -444,6 +446,56 @@ def _coh(step, trosy: bool, key: str, atom: str):
 def segment_amplitude(rs: ResolvedSegment, tau, rates, *, trosy: bool = False, sensitivity_enhanced: bool = True):
     """Amplitude of one resolved segment at delay ``tau`` [s] (its named delay; ignored for fixed steps) with the
     coherence rates of ``rates`` (a RateSet or :class:`NoRelaxation`). Broadcasts ``tau`` against the rates."""
+    return _segment_amplitude(rs, tau, rates, trosy, sensitivity_enhanced, True)
+
+
+def _segment_amplitude(rs: ResolvedSegment, tau, rates, trosy: bool, sensitivity_enhanced: bool, checked: bool):
+    """:func:`segment_amplitude`; with ``checked=False`` the coupling periods use the unchecked transfer kernels
+    (same values), for the delay search whose τ lies within the delay bounds (≥ 0) and whose rates come from a
+    validated RateSet."""
+    if checked:
+        return _segment_amplitude_checked(rs, tau, rates, trosy, sensitivity_enhanced)
+    step = rs.step
+    kind = step.kind
+    if kind in ("inept", "transfer", "refocus"):
+        where = step.where
+        atom = rs.transverse[0]
+        r_in = _rate(rates, _coh(step, trosy, "inphase", atom), where)
+        r_anti = _rate(rates, _coh(step, trosy, "antiphase", atom), where)
+        p = _passive(tau, rs.passive[0], False)
+        if len(rs.j_active) > 1:
+            return _branch_transferred_unchecked(tau, rs.j_active, r_in, r_anti, rs.k) * p
+        if kind in ("inept", "transfer"):
+            return _transfer_unchecked(tau, rs.j_active[0], r_in, r_anti)[1] * p
+        return _transfer_unchecked(tau, rs.j_active[0], r_anti, r_in)[1] * p
+    if kind == "carbon-split":
+        where = step.where
+        j = rs.j_active[0]
+        first = rs.transverse[0]
+        r_in = _rate(rates, _coh(step, trosy, "inphase", first), where)
+        r_anti = _rate(rates, _coh(step, trosy, "antiphase", first), where)
+        if step.periods == 1:
+            if rs.stay:
+                a = _transfer_unchecked(tau, j, r_in, r_anti)[0]
+            elif len(step.to) > 1:
+                a = _transfer_unchecked(tau, j, r_in, r_anti)[1]
+            else:
+                a = _transfer_unchecked(tau, j, r_anti, r_in)[1]
+            return a * _passive(tau, rs.passive[0], False)
+        second = rs.transverse[1]
+        r_in2 = _rate(rates, _coh(step, trosy, "inphase", second), where)
+        r_anti2 = _rate(rates, _coh(step, trosy, "antiphase", second), where)
+        if rs.stay:
+            p1 = _transfer_unchecked(tau, j, r_in, r_anti)[0]
+            p2 = _transfer_unchecked(tau, j, r_in2, r_anti2)[0]
+        else:
+            p1 = _transfer_unchecked(tau, j, r_in, r_anti)[1]
+            p2 = _transfer_unchecked(tau, j, r_anti2, r_in2)[1]
+        return p1 * p2 * _passive(tau, rs.passive[0], False) * _passive(tau, rs.passive[1], False)
+    return _segment_amplitude_checked(rs, tau, rates, trosy, sensitivity_enhanced)
+
+
+def _segment_amplitude_checked(rs: ResolvedSegment, tau, rates, trosy: bool, sensitivity_enhanced: bool):
     step = rs.step
     kind = step.kind
     where = step.where

@@ -303,21 +303,36 @@ def optimal_delays(func, bounds, *, n_grid=None, rtol=1e-7, atol=1e-12, maximize
     return JointOptimum(tuple(x[k] for k in range(d)), fx if maximize else -fx)
 
 
-def _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter):
+#: The joint search goes on with only the conditions still active once they are at most this fraction of the
+#: batch (``compact`` evaluators): a condition's iterations do not depend on the others, so the results are the
+#: same, and the last iterations, where a few conditions follow a ridge, cost what those few cost.
+_COMPACT_FRACTION = 0.5
+
+
+def _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter, compact=None):
     """The n-D search of :func:`optimal_delays` on (d, *shape) bounds, the objective given as three evaluators:
     ``grid(lo, hi, n)`` → (flat grid index, value) like :func:`_grid_search`, ``stencil(c, hc, off_b)`` → values
     at ``c + off_b·hc`` (3^d, *shape), ``point(x)`` → values at x (d, *shape). Maximizes; returns (x, value).
+    ``compact(idx)``, optional, returns (stencil, point) evaluators for the conditions at the flat indices
+    ``idx`` of ``shape`` only (condition shape (len(idx),)).
 
     A condition whose stencil spacing is small enough keeps its point and spacing while others go on, so its
     result is the one it would have alone.
     """
     d, shape = lo.shape[0], lo.shape[1:]
-    nd = len(shape)
 
     # Joint grid search.
     flat, fx = grid(lo, hi, n)
     h = (hi - lo) / (n - 1)
     x = lo + h * np.stack(np.unravel_index(flat, (n,) * d)).reshape((d,) + shape)
+    return _joint_iterate(stencil, point, lo, hi, x, fx, h, rtol, atol, int(max_iter), compact)
+
+
+def _joint_iterate(stencil, point, lo, hi, x, fx, h, rtol, atol, max_iter, compact):
+    """The stencil/Newton iterations of :func:`_joint_search` from the grid optimum x (d, *shape), value fx and
+    spacing h; returns (x, fx)."""
+    d, shape = lo.shape[0], lo.shape[1:]
+    nd = len(shape)
 
     # Stencil bookkeeping: offsets in {-1, 0, 1}^d and the indices the finite differences need.
     offsets = np.array(list(itertools.product((-1.0, 0.0, 1.0), repeat=d)))
@@ -333,10 +348,28 @@ def _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter):
 
     eye = np.eye(d)
     off_b = offsets.reshape(offsets.shape + (1,) * nd)
-    for _ in range(int(max_iter)):
+    for it in range(max_iter):
         active = ~np.all(h <= rtol * np.abs(x) + atol, axis=0)
-        if not np.any(active):
+        n_active = int(np.count_nonzero(active))
+        if n_active == 0:
             break
+        if compact is not None and nd >= 1 and n_active <= _COMPACT_FRACTION * active.size:
+            # Conditions that stopped never move again (x, fx and h stay), so the rest goes on alone.
+            idx = np.flatnonzero(active)
+            sub_stencil, sub_point = compact(idx)
+
+            def sub(a, idx=idx):
+                return a.reshape(a.shape[: a.ndim - nd] + (-1,))[..., idx]
+
+            xs, fs = _joint_iterate(
+                sub_stencil, sub_point, sub(lo), sub(hi), sub(x), sub(fx), sub(h), rtol, atol, max_iter - it,
+                lambda j, idx=idx: compact(idx[j]),
+            )
+            x = x.reshape((d, -1)).copy()
+            fx = fx.reshape(-1).copy()
+            x[:, idx] = xs
+            fx[idx] = fs
+            return x.reshape((d,) + shape), fx.reshape(shape)
         hc = np.minimum(h, 0.5 * (hi - lo))
         c = np.clip(x, lo + hc, hi - hc)
         fv = stencil(c, hc, off_b)
@@ -388,7 +421,9 @@ def _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter):
     return x, fx
 
 
-def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, n_grid=None, rtol=1e-7, atol=1e-12, max_iter=100):
+def _weakest_product_optimum(
+    axis_factors, fixed, bounds, shape, *, n_grid=None, rtol=1e-7, atol=1e-12, max_iter=100, subset_factors=None
+):
     """:func:`optimal_delays` (default grid, maximizing) of the weakest of products of per-delay factors.
 
     The objective is min over k of ``fixed[k] · ∏_d axis_factors(d, τ_d)[k]`` (products in that order, the
@@ -401,13 +436,35 @@ def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, n_grid=None,
 
     ``n_grid`` overrides the joint grid: an objective known to be jointly log-concave (hence unimodal; the
     walk's weakest-peak objectives, :mod:`backbone.experiments.delays`) needs the grid only as a start.
+    ``subset_factors(d, tau, idx)``, optional, gives the factors of the conditions at the flat indices ``idx``
+    of ``shape`` only (``tau`` of shape (…, len(idx))); with it the last iterations run on the conditions still
+    searching (:data:`_COMPACT_FRACTION`), same values.
     """
     d = len(bounds)
     n = _JOINT_GRID[d] if n_grid is None else int(n_grid)
-    nd = len(shape)
-    pad = (1,) * nd
     lo = np.stack([np.broadcast_to(np.asarray(b[0], dtype=float), shape) for b in bounds]).astype(float)
     hi = np.stack([np.broadcast_to(np.asarray(b[1], dtype=float), shape) for b in bounds]).astype(float)
+    grid, stencil, point = _product_evaluators(axis_factors, fixed, d, tuple(shape))
+    compact = None
+    if subset_factors is not None and len(shape) >= 1:
+        flat_fixed = [np.broadcast_to(np.asarray(f, dtype=float), shape).reshape(-1) for f in fixed]
+
+        def compact(idx):
+            def factors(a, tau):
+                return subset_factors(a, tau, idx)
+
+            _, sub_stencil, sub_point = _product_evaluators(factors, [f[idx] for f in flat_fixed], d, (idx.size,))
+            return sub_stencil, sub_point
+
+    x, fx = _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter, compact)
+    return JointOptimum(tuple(x[k] for k in range(d)), fx)
+
+
+def _product_evaluators(axis_factors, fixed, d, shape):
+    """(grid, stencil, point) evaluators of :func:`_joint_search` for the objective of
+    :func:`_weakest_product_optimum` on the condition shape ``shape``."""
+    nd = len(shape)
+    pad = (1,) * nd
 
     def combine(per_axis, sizes):
         """Objective on the outer grid of the per-delay values, flattened in C order: (∏ sizes, *shape);
@@ -454,8 +511,7 @@ def _weakest_product_optimum(axis_factors, fixed, bounds, shape, *, n_grid=None,
         per_axis = [[np.asarray(v)[None] for v in axis_factors(a, x[a])] for a in range(d)]
         return combine(per_axis, (1,) * d)[0]
 
-    x, fx = _joint_search(grid, stencil, point, lo, hi, n, rtol, atol, max_iter)
-    return JointOptimum(tuple(x[k] for k in range(d)), fx)
+    return grid, stencil, point
 
 
 #: Relative finite-difference step of the Newton search of :func:`_log_concave_maximum`.
@@ -465,7 +521,7 @@ _FD_STEP = 1e-5
 _SMOOTH_CURVATURE = 1e3
 
 
-def _log_concave_maximum(func, lo, hi, *, start=None, rtol=1e-9, atol=1e-12, newton_iter=8, max_iter=200):
+def _log_concave_maximum(func, lo, hi, *, start=None, rtol=1e-9, atol=1e-12, newton_iter=8, max_iter=200, subset=None):
     """Maximum of a function of one delay that is log-concave (hence unimodal) on [lo, hi], for an array of
     conditions: no global grid, a safeguarded Newton search on log f from ``start`` with golden-section
     fallback. For the walk's objectives, whose log-concavity on the first lobe is shown in
@@ -483,6 +539,9 @@ def _log_concave_maximum(func, lo, hi, *, start=None, rtol=1e-9, atol=1e-12, new
 
     func : callable, elementwise, broadcasting a leading axis of ``tau`` like :func:`optimal_delay`'s; NaN and
     values ≤ 0 count as the worst. lo, hi : arrays or floats [s]; start : array [s] or None (mid-interval).
+    subset : optional, ``subset(idx, shape)`` → ``func`` for the conditions at the flat indices ``idx`` of the
+    condition shape ``shape`` only (1-D), or None when it cannot; with it the golden section runs on the
+    conditions that need it alone (same values).
     No argument checks (for callers that validated their inputs). Returns :class:`Optimum` (maximizing).
     """
     f = _objective(func, True)
@@ -538,6 +597,21 @@ def _log_concave_maximum(func, lo, hi, *, start=None, rtol=1e-9, atol=1e-12, new
     done &= ~pending
     if not np.all(done):
         # Golden section inside the narrowed bracket for the rest.
-        tg, _ = _golden(f, a, b, rtol, atol, max_iter, active=~done)
-        x = np.where(done, x, tg)
+        rest = ~done
+        n_rest = int(np.count_nonzero(rest))
+        idx = np.flatnonzero(rest)
+        f_sub = None
+        if subset is not None and len(shape) >= 1 and n_rest <= _COMPACT_FRACTION * rest.size:
+            f_sub = subset(idx, shape)
+        if f_sub is not None:
+            # Every condition's golden section is its own, so the few that need one run alone.
+            a_sub = a.reshape(-1)[idx]
+            b_sub = b.reshape(-1)[idx]
+            tg, _ = _golden(_objective(f_sub, True), a_sub, b_sub, rtol, atol, max_iter)
+            x = x.reshape(-1).copy()
+            x[idx] = tg
+            x = x.reshape(shape)
+        else:
+            tg, _ = _golden(f, a, b, rtol, atol, max_iter, active=rest)
+            x = np.where(done, x, tg)
     return Optimum(x, np.broadcast_to(f(x), shape).copy())

@@ -142,7 +142,20 @@ def _kernel_scaled(t, w, ra, rb):
     b = b_m·e^log_scale (amplitude in the target). ``log_scale`` is t times the real part of the slower
     eigenvalue, and |a_m|, |b_m| ≤ 1 + |δ|t, so products of several factors can be formed without overflow.
     """
-    t, w, ra, rb = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (t, w, ra, rb)))
+    t, w, ra, rb = (np.asarray(x, dtype=float) for x in (t, w, ra, rb))
+    rm = 0.5 * (ra + rb)
+    delta = 0.5 * (ra - rb)
+    q = w * w - delta * delta
+    if q.min(initial=0.0) >= 0.0:
+        # Oscillatory everywhere (the usual case): no broadcasting of the inputs, no masked branch.
+        x = np.sqrt(q) * t
+        s = t * np.sinc(x / np.pi)
+        a_m = np.cos(x) - delta * s
+        log_scale = -rm * t
+        if log_scale.shape != a_m.shape:
+            log_scale = log_scale + np.zeros(a_m.shape)
+        return a_m, w * s, log_scale
+    t, w, ra, rb = np.broadcast_arrays(t, w, ra, rb)
     rm = 0.5 * (ra + rb)
     delta = 0.5 * (ra - rb)
     q = w * w - delta * delta
@@ -436,3 +449,46 @@ def multiple_quantum(tau, r_mq, *, passive_hz=()):
     tau = _nonneg("tau", tau, "s")
     r = _nonneg("r_mq", r_mq, "s^-1")
     return np.exp(-r * tau) * passive_factor(tau, passive_hz)
+
+
+# ---------------------------------------------------------------------------------------------------------
+# Unchecked kernels for callers that validated their inputs once (the experiment walk's delay search)
+# ---------------------------------------------------------------------------------------------------------
+
+
+def _transfer_unchecked(tau, j_hz, r_from, r_to):
+    """(remaining, transferred) of :func:`transfer_amplitudes` with no passive couplings, without validation.
+
+    For callers whose τ [s] ≥ 0 and rates [s⁻¹] ≥ 0 are finite by construction (|J| [Hz] is a float); the
+    values are those of :func:`transfer_amplitudes` operation for operation."""
+    return _kernel(tau, np.pi * abs(float(j_hz)), r_from, r_to)
+
+
+def _branch_transferred_unchecked(tau, j_hz, r_in, r_anti, k: int):
+    """``branch_transfer(...).transferred[k]`` for one anti-phase rate shared by every partner, without the
+    per-argument validation (τ [s] ≥ 0, rates [s⁻¹] ≥ 0 finite, couplings [Hz] floats; the caller's duty). The
+    additive model's floor is still checked. Same values as :func:`branch_transfer`, operation for operation;
+    the transferred amplitude is the same for ``"build"`` (``r_in`` in-phase start) and ``"refocus"``."""
+    n = len(j_hz)
+    floor = r_in + n * np.minimum(r_anti - r_in, 0.0)
+    if np.any(floor < 0):
+        raise BackboneError(
+            "anti-phase rates this far below the in-phase rate give a multiply anti-phase state a negative rate "
+            "under the additive relaxation model; it needs R_in + sum_k min(0, R_anti,k - R_in) >= 0"
+        )
+    zero = np.zeros(())
+    diff = r_anti - r_in
+    factors = [_kernel_scaled(tau, np.pi * abs(float(j)), zero, diff) for j in j_hz]
+    log_total = -r_in * tau
+    for _, _, log_m in factors:
+        log_total = log_total + log_m
+    others = np.exp(log_total)
+    for m in range(n):
+        if m != k:
+            others = others * factors[m][0]
+    return others * factors[k][1]
+
+
+def _cos_unchecked(tau, j_hz):
+    """cos(πJτ) of :func:`passive_factor` for one coupling [Hz], without validation (τ [s] finite, ≥ 0)."""
+    return np.cos(np.pi * abs(float(j_hz)) * tau)

@@ -45,6 +45,7 @@ def main():
     base = args.tau_c_points
 
     t0 = time.perf_counter()
+    import pandas  # noqa: F401  (imported on first use by plan_matrix, about 0.3 s)
     import scipy.interpolate  # noqa: F401  (imported on first use by the interpolated mode)
 
     import backbone.plan as plan_module
