@@ -398,12 +398,7 @@ def test_validate_environment_normalizes_entries():
 
 
 def test_tumbling_functions_reexported_lazily():
-    import importlib.util
-
     import backbone.relaxation as relaxation
-
-    if importlib.util.find_spec("backbone.relaxation.tumbling") is None:
-        pytest.skip("tumbling module not present")
     from backbone.relaxation import tumbling
 
     assert relaxation.tau_c_from_mass is tumbling.tau_c_from_mass

@@ -8,13 +8,12 @@ Public API
   geometry of the dipolar partners of each nucleus (:mod:`~backbone.relaxation.environment`).
 - :func:`relaxation_rates` → :class:`RateSet` – rates of every labeled nucleus and of the coherences the
   transfer steps use, vectorized over τc and field (:mod:`~backbone.relaxation.engine`).
-- :func:`solvent_viscosity`, :func:`tau_c_from_mass` – tumbling (:mod:`~backbone.relaxation.tumbling`), when
-  that module is present. They are resolved on first use, so importing the rate engine stays numpy/scipy only
+- :func:`solvent_viscosity`, :func:`tau_c_from_mass` – tumbling (:mod:`~backbone.relaxation.tumbling`).
+  They are resolved on first use, so importing the rate engine stays numpy/scipy only
   (the tumbling module loads iapws, which takes about half a second).
 """
 
 import importlib
-import importlib.util
 
 from backbone.relaxation.engine import COHERENCES, NUCLEUS_RATES, RateSet, relaxation_rates
 from backbone.relaxation.environment import (
@@ -41,13 +40,11 @@ __all__ = [
 ]
 
 _TUMBLING_NAMES = ("solvent_viscosity", "tau_c_from_mass")
-_HAS_TUMBLING = importlib.util.find_spec("backbone.relaxation.tumbling") is not None
-if _HAS_TUMBLING:
-    __all__ += list(_TUMBLING_NAMES)
+__all__ += list(_TUMBLING_NAMES)
 
 
 def __getattr__(name):
-    # Lazy, guarded re-export of the tumbling functions (PEP 562).
-    if name in _TUMBLING_NAMES and _HAS_TUMBLING:
+    # Lazy re-export of the tumbling functions (PEP 562): iapws is imported only when they are used.
+    if name in _TUMBLING_NAMES:
         return getattr(importlib.import_module("backbone.relaxation.tumbling"), name)
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
