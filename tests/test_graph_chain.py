@@ -9,6 +9,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
+from graph_reference import GAMMA_CARBONS_BY_RESIDUE, TEXTBOOK_RANGE_HZ
+
 from backbone.errors import BackboneError
 from backbone.graph import (
     COUPLINGS,
@@ -24,42 +26,7 @@ from backbone.graph import (
 # Chem. 70, 117, 1998; common practice): beta protons and gamma carbons with their chemistry.
 BETA_H = {aa: 2 for aa in STANDARD_LETTERS}
 BETA_H.update({"G": 0, "A": 3, "I": 1, "T": 1, "V": 1})
-GAMMA = {
-    "R": {"CG": "aliphatic"},
-    "Q": {"CG": "aliphatic"},
-    "E": {"CG": "aliphatic"},
-    "L": {"CG": "aliphatic"},
-    "K": {"CG": "aliphatic"},
-    "M": {"CG": "aliphatic"},
-    "P": {"CG": "aliphatic"},
-    "I": {"CG1": "aliphatic", "CG2": "aliphatic"},
-    "V": {"CG1": "aliphatic", "CG2": "aliphatic"},
-    "T": {"CG2": "aliphatic"},
-    "F": {"CG": "aromatic"},
-    "Y": {"CG": "aromatic"},
-    "W": {"CG": "aromatic"},
-    "H": {"CG": "aromatic"},
-    "D": {"CG": "carbonyl"},
-    "N": {"CG": "carbonyl"},
-}
-
-# Textbook ranges [Hz] (Cavanagh, Fairbrother, Palmer, Rance & Skelton, Protein NMR Spectroscopy, 2nd ed.,
-# 2007, coupling figure; Sattler, Schleucher & Griesinger 1999, Fig. 1; from memory). CB-CG: Krivdin &
-# Kalabin, Prog. NMR Spectrosc. 21, 293 (1989), from memory.
-TEXTBOOK_RANGE_HZ = {
-    "1J(N,H)": (-95.0, -89.0),
-    "1J(N,C)": (-17.0, -13.0),
-    "1J(N,CA)": (-13.0, -7.0),
-    "2J(N,CA(i-1))": (-9.0, -4.0),
-    "1J(CA,C)": (50.0, 58.0),
-    "1J(CA,CB)": (30.0, 40.0),
-    "1J(CA,HA)": (130.0, 150.0),
-    "1J(CB,HB)": (120.0, 150.0),
-    "1J(CB,CG)[aliphatic]": (32.0, 38.0),
-    "1J(CB,CG)[aromatic]": (42.0, 52.0),
-    "1J(CB,CG)[carbonyl]": (48.0, 57.0),
-    "3J(H,HA)": (1.0, 11.0),
-}
+GAMMA = {aa: g for aa, g in GAMMA_CARBONS_BY_RESIDUE.items() if g}
 
 _ELEMENT = {"H": "H", "HA": "H", "HA2": "H", "HA3": "H", "HB": "H", "N": "N"}
 
