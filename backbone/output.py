@@ -15,7 +15,10 @@ from pathlib import Path
 
 from backbone.errors import BackboneError
 
-__all__ = ["write_atomically"]
+__all__ = ["FIGURE_FORMATS", "write_atomically"]
+
+#: Figure file extensions the plots accept, with the matplotlib format name written for each.
+FIGURE_FORMATS = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
 
 
 def write_atomically(path, write: Callable[[str], None], *, force: bool = False, formats=None, what: str = "file") -> Path:

@@ -22,13 +22,13 @@ from pathlib import Path
 import numpy as np
 
 from backbone.errors import BackboneError
-from backbone.output import write_atomically
+from backbone.output import FIGURE_FORMATS, write_atomically
 from backbone.sweep import delay_columns
 
 __all__ = ["PLOT_FORMATS", "plot_throughput_vs_tau_c", "plot_delays_vs_tau_c", "plot_walk", "walk_layout"]
 
-#: Plot formats by file extension.
-PLOT_FORMATS = {".png": "PNG", ".svg": "SVG", ".pdf": "PDF"}
+#: Plot formats by file extension (one list for every figure the package writes).
+PLOT_FORMATS = FIGURE_FORMATS
 
 _QUANTITIES = {
     "sensitivity_per_root_time": "S/N per sqrt(time), relative to the 13c15n HSQC",
@@ -48,7 +48,7 @@ _COLORS = ("#1f5fa8", "#c0392b", "#2e8b57", "#8e44ad", "#d68910", "#17a2b8", "#6
 def _check_path(path, force: bool) -> Path:
     path = Path(path)
     if path.suffix.lower() not in PLOT_FORMATS:
-        allowed = ", ".join(f"{e} ({d})" for e, d in PLOT_FORMATS.items())
+        allowed = ", ".join(PLOT_FORMATS)
         raise BackboneError(f"plot file {str(path)!r}: extension {path.suffix or '(none)'!r} is not allowed; use {allowed}")
     if path.exists() and not force:
         raise BackboneError(f"plot file {str(path)!r} exists; not overwriting it (pass force=True / --force to replace it)")

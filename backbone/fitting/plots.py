@@ -26,12 +26,12 @@ from pathlib import Path
 import numpy as np
 
 from backbone.errors import BackboneError
-from backbone.output import write_atomically
+from backbone.output import FIGURE_FORMATS, write_atomically
 
 __all__ = ["FORMATS", "STATUS_COLORS", "plot_fits", "plot_tau_c", "plot_result"]
 
-#: File extensions and the matplotlib format written for each.
-FORMATS = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
+#: File extensions and the matplotlib format written for each (:data:`backbone.output.FIGURE_FORMATS`).
+FORMATS = FIGURE_FORMATS
 #: Frame/marker colour per status (problems stand out; ``ok`` panels keep the default frame).
 STATUS_COLORS = {
     "ok": "tab:blue",
