@@ -192,24 +192,29 @@ class PlanResult:
                     return [None] * n
                 return list(np.broadcast_to(np.asarray(x), self.shape).ravel()) if self.shape else [np.asarray(x).item()]
 
-            base = {
-                "experiment": flat(np.asarray(e.name, dtype=object)),
-                "trosy": flat(e.trosy),
-                "field_mhz": flat(e.field_mhz),
-                "tau_c_ns": flat(e.tau_c_ns),
-            }
+            trosy, field, tau_c = flat(e.trosy), flat(e.field_mhz), flat(e.tau_c_ns)
+
+            def condition(k, e=e, trosy=trosy, field=field, tau_c=tau_c):
+                """The columns every row of experiment ``e`` at grid point ``k`` starts with."""
+                return {
+                    "experiment": e.name,
+                    "trosy": bool(trosy[k]),
+                    "labeling": e.labeling,
+                    "field_mhz": float(field[k]),
+                    "tau_c_ns": float(tau_c[k]),
+                }
+
+            def num(x, scale=1.0):
+                return None if x is None else float(x) * scale
+
             if kind == "peaks":
+                rel = flat(e.relative_sensitivity)
                 for p in e.peaks:
                     tp, tb = flat(p.throughput), flat(p.textbook_throughput)
-                    rel = flat(e.relative_sensitivity)
                     for k in range(n):
                         rows.append(
-                            {
-                                "experiment": e.name,
-                                "trosy": bool(base["trosy"][k]),
-                                "labeling": e.labeling,
-                                "field_mhz": float(base["field_mhz"][k]),
-                                "tau_c_ns": float(base["tau_c_ns"][k]),
+                            condition(k)
+                            | {
                                 "peak": p.label,
                                 "sign": p.sign,
                                 "throughput": float(tp[k]),
@@ -224,19 +229,15 @@ class PlanResult:
                     d, tbd, eff, rate = flat(s.delay_s), flat(s.textbook_delay_s), flat(s.efficiency), flat(s.rate_s)
                     for k in range(n):
                         rows.append(
-                            {
-                                "experiment": e.name,
-                                "trosy": bool(base["trosy"][k]),
-                                "labeling": e.labeling,
-                                "field_mhz": float(base["field_mhz"][k]),
-                                "tau_c_ns": float(base["tau_c_ns"][k]),
+                            condition(k)
+                            | {
                                 "step": s.name,
                                 "from": s.from_,
                                 "to": s.to,
-                                "delay_ms": None if d[k] is None else float(d[k]) * 1e3,
-                                "textbook_delay_ms": None if tbd[k] is None else float(tbd[k]) * 1e3,
-                                "efficiency": None if eff[k] is None else float(eff[k]),
-                                "rate_per_s": None if rate[k] is None else float(rate[k]),
+                                "delay_ms": num(d[k], 1e3),
+                                "textbook_delay_ms": num(tbd[k], 1e3),
+                                "efficiency": num(eff[k]),
+                                "rate_per_s": num(rate[k]),
                             }
                         )
         return pd.DataFrame(rows)
